@@ -1,0 +1,29 @@
+# gapbook: build, test and benchmark.
+GO       ?= go
+WASMPATH := $(shell $(GO) env GOROOT)/lib/wasm
+# Numerical packages: tested natively and compiled to WebAssembly under node.
+NUMERIC  := $(foreach d,expr convex mesh fem nonlinear estimate,$(if $(wildcard $(d)/*.go),./$(d)/...))
+
+.PHONY: run test test-native test-wasm vet bench fuzz
+
+run:
+	$(GO) run ./cmd/gapbook run examples/default.gapbook
+
+test: vet test-native test-wasm
+
+vet:
+	$(GO) vet ./...
+	@test -z "$$(gofmt -l $$(git ls-files '*.go'))" || { echo "gofmt needed:"; gofmt -l $$(git ls-files '*.go'); exit 1; }
+
+test-native:
+	$(GO) test -count=1 ./...
+
+test-wasm:
+	PATH="$$PATH:$(WASMPATH)" GOOS=js GOARCH=wasm $(GO) test -count=1 $(NUMERIC)
+
+bench:
+	$(GO) test -run '^$$' -bench . -benchmem $(NUMERIC)
+
+# Long fuzzing runs; make test only replays the seed corpus.
+fuzz:
+	$(GO) test ./expr -run '^$$' -fuzz FuzzParseEval -fuzztime 60s

@@ -1,0 +1,249 @@
+// Package mesh builds conforming simplicial meshes of intervals and polygons,
+// refines them (uniformly, keeping a hierarchy for multigrid, and by
+// newest-vertex bisection for adaptivity) and answers geometric questions
+// (cell diameters, mesh size, widths) that the error bounds need.
+package mesh
+
+import (
+	"fmt"
+	"math"
+)
+
+// Point is a node position. In 1-D, Y is zero.
+type Point struct{ X, Y float64 }
+
+// Mesh is a conforming mesh of an interval (Dim 1) or of a polygon (Dim 2).
+//
+// Cells hold Dim+1 node indices each; in 1-D the third entry is -1.
+// Triangles are counter-clockwise, and vertex 0 is the newest vertex: the
+// edge opposite it (vertices 1, 2) is the refinement edge of newest-vertex
+// bisection.
+type Mesh struct {
+	Dim   int
+	Nodes []Point
+	Cells [][3]int32
+
+	// Boundary marks the nodes on ∂Ω (Dirichlet nodes).
+	Boundary []bool
+	// BoundaryEdges lists the boundary edges (2-D) as node pairs with the
+	// domain on their left; in 1-D it is empty.
+	BoundaryEdges [][2]int32
+
+	// Coarse is the mesh this one was refined from, or nil. Parents maps each
+	// node of this mesh to the two nodes of Coarse whose midpoint it is
+	// (both entries equal for a node that Coarse already had). Together they
+	// define the prolongation of P1 functions used by multigrid.
+	Coarse  *Mesh
+	Parents [][2]int32
+}
+
+// NumNodes returns the number of nodes.
+func (m *Mesh) NumNodes() int { return len(m.Nodes) }
+
+// NumCells returns the number of cells.
+func (m *Mesh) NumCells() int { return len(m.Cells) }
+
+// Vertices returns the Dim+1 vertex indices of cell k.
+func (m *Mesh) Vertices(k int) []int32 { return m.Cells[k][:m.Dim+1] }
+
+// Level returns the number of refinements between m and the coarsest mesh of
+// its hierarchy.
+func (m *Mesh) Level() int {
+	l := 0
+	for c := m.Coarse; c != nil; c = c.Coarse {
+		l++
+	}
+	return l
+}
+
+// Area returns the length (1-D) or the area (2-D) of cell k.
+func (m *Mesh) Area(k int) float64 {
+	c := m.Cells[k]
+	a, b := m.Nodes[c[0]], m.Nodes[c[1]]
+	if m.Dim == 1 {
+		return math.Abs(b.X - a.X)
+	}
+	d := m.Nodes[c[2]]
+	return 0.5 * ((b.X-a.X)*(d.Y-a.Y) - (d.X-a.X)*(b.Y-a.Y))
+}
+
+// Edges numbers the edges of a 2-D mesh. It returns the edges as sorted node
+// pairs (lower index first) and, for each cell, the edge opposite each of its
+// three vertices. In 1-D the "edges" are the nodes and it returns nil.
+func (m *Mesh) Edges() (edges [][2]int32, cellEdges [][3]int32) {
+	if m.Dim != 2 {
+		return nil, nil
+	}
+	type key struct{ a, b int32 }
+	index := make(map[key]int32, 3*len(m.Cells)/2+len(m.BoundaryEdges))
+	cellEdges = make([][3]int32, len(m.Cells))
+	for k, c := range m.Cells {
+		for i := 0; i < 3; i++ {
+			a, b := c[(i+1)%3], c[(i+2)%3]
+			if a > b {
+				a, b = b, a
+			}
+			e, ok := index[key{a, b}]
+			if !ok {
+				e = int32(len(edges))
+				index[key{a, b}] = e
+				edges = append(edges, [2]int32{a, b})
+			}
+			cellEdges[k][i] = e
+		}
+	}
+	return edges, cellEdges
+}
+
+// Interval returns the uniform mesh of (a, b) with n cells.
+func Interval(a, b float64, n int) (*Mesh, error) {
+	if !(b > a) || math.IsInf(a, 0) || math.IsInf(b, 0) {
+		return nil, fmt.Errorf("interval: need a < b, both finite; got (%g, %g)", a, b)
+	}
+	if n < 1 {
+		return nil, fmt.Errorf("interval: need at least 1 cell, got %d", n)
+	}
+	if err := checkBudget(n+1, n); err != nil {
+		return nil, err
+	}
+	m := &Mesh{Dim: 1, Nodes: make([]Point, n+1), Cells: make([][3]int32, n), Boundary: make([]bool, n+1)}
+	for i := 0; i <= n; i++ {
+		m.Nodes[i] = Point{X: a + (b-a)*float64(i)/float64(n)}
+	}
+	m.Nodes[n].X = b
+	for i := 0; i < n; i++ {
+		m.Cells[i] = [3]int32{int32(i), int32(i + 1), -1}
+	}
+	m.Boundary[0], m.Boundary[n] = true, true
+	return m, nil
+}
+
+// Rectangle returns a mesh of [x0, x1] × [y0, y1] with nx × ny squares, each
+// cut into two triangles along the diagonal from lower left to upper right.
+func Rectangle(x0, x1, y0, y1 float64, nx, ny int) (*Mesh, error) {
+	if !(x1 > x0) || !(y1 > y0) || math.IsInf(x0, 0) || math.IsInf(x1, 0) || math.IsInf(y0, 0) || math.IsInf(y1, 0) {
+		return nil, fmt.Errorf("rectangle: need x0 < x1 and y0 < y1, all finite; got [%g, %g] × [%g, %g]", x0, x1, y0, y1)
+	}
+	if nx < 1 || ny < 1 {
+		return nil, fmt.Errorf("rectangle: need at least 1 cell per side, got %d × %d", nx, ny)
+	}
+	if err := checkBudget((nx+1)*(ny+1), 2*nx*ny); err != nil {
+		return nil, err
+	}
+	m := &Mesh{Dim: 2}
+	id := func(i, j int) int32 { return int32(j*(nx+1) + i) }
+	for j := 0; j <= ny; j++ {
+		for i := 0; i <= nx; i++ {
+			m.Nodes = append(m.Nodes, Point{
+				X: x0 + (x1-x0)*float64(i)/float64(nx),
+				Y: y0 + (y1-y0)*float64(j)/float64(ny),
+			})
+		}
+	}
+	for j := 0; j < ny; j++ {
+		for i := 0; i < nx; i++ {
+			a, b, c, d := id(i, j), id(i+1, j), id(i+1, j+1), id(i, j+1)
+			// Newest vertex opposite the diagonal a–c, so bisection cuts it.
+			m.Cells = append(m.Cells, [3]int32{b, c, a}, [3]int32{d, a, c})
+		}
+	}
+	for i := 0; i < nx; i++ {
+		m.BoundaryEdges = append(m.BoundaryEdges, [2]int32{id(i, 0), id(i+1, 0)}, [2]int32{id(i+1, ny), id(i, ny)})
+	}
+	for j := 0; j < ny; j++ {
+		m.BoundaryEdges = append(m.BoundaryEdges, [2]int32{id(nx, j), id(nx, j+1)}, [2]int32{id(0, j+1), id(0, j)})
+	}
+	m.markBoundary()
+	return m, nil
+}
+
+func (m *Mesh) markBoundary() {
+	m.Boundary = make([]bool, len(m.Nodes))
+	for _, e := range m.BoundaryEdges {
+		m.Boundary[e[0]], m.Boundary[e[1]] = true, true
+	}
+}
+
+// MaxNodes is the largest mesh the package builds: a P1 solve on it needs
+// about 1 KB per node for the matrices, the multigrid hierarchy and the
+// error bounds, and WebAssembly has under 4 GB of memory.
+const MaxNodes = 3_000_000
+
+func checkBudget(nodes, cells int) error {
+	if nodes > MaxNodes || nodes < 0 || cells < 0 {
+		return fmt.Errorf("mesh too large: %d nodes requested, the limit is %d (about 1 KB per node for solve and bounds; WebAssembly has under 4 GB)", nodes, MaxNodes)
+	}
+	return nil
+}
+
+// Refine returns the uniform refinement of m: every interval is halved,
+// every triangle is cut into four by its edge midpoints. The result keeps m
+// as its Coarse mesh, with Parents for the prolongation.
+func (m *Mesh) Refine() (*Mesh, error) {
+	if m.Dim == 1 {
+		return m.refine1()
+	}
+	edges, cellEdges := m.Edges()
+	nv := len(m.Nodes)
+	if err := checkBudget(nv+len(edges), 4*len(m.Cells)); err != nil {
+		return nil, err
+	}
+	f := &Mesh{Dim: 2, Coarse: m}
+	f.Nodes = make([]Point, nv+len(edges))
+	copy(f.Nodes, m.Nodes)
+	f.Parents = make([][2]int32, nv+len(edges))
+	for i := 0; i < nv; i++ {
+		f.Parents[i] = [2]int32{int32(i), int32(i)}
+	}
+	edgeIndex := make(map[[2]int32]int32, len(edges))
+	for e, ab := range edges {
+		p, q := m.Nodes[ab[0]], m.Nodes[ab[1]]
+		f.Nodes[nv+e] = Point{(p.X + q.X) / 2, (p.Y + q.Y) / 2}
+		f.Parents[nv+e] = ab
+		edgeIndex[ab] = int32(e)
+	}
+	f.Cells = make([][3]int32, 0, 4*len(m.Cells))
+	for k, c := range m.Cells {
+		// mid[i] is the midpoint of the edge opposite vertex i.
+		var mid [3]int32
+		for i := range 3 {
+			mid[i] = int32(nv) + cellEdges[k][i]
+		}
+		f.Cells = append(f.Cells,
+			[3]int32{c[0], mid[2], mid[1]},
+			[3]int32{c[1], mid[0], mid[2]},
+			[3]int32{c[2], mid[1], mid[0]},
+			[3]int32{mid[0], mid[1], mid[2]},
+		)
+	}
+	f.BoundaryEdges = make([][2]int32, 0, 2*len(m.BoundaryEdges))
+	for _, be := range m.BoundaryEdges {
+		a, b := be[0], be[1]
+		key := [2]int32{min(a, b), max(a, b)}
+		mid := int32(nv) + edgeIndex[key]
+		f.BoundaryEdges = append(f.BoundaryEdges, [2]int32{a, mid}, [2]int32{mid, b})
+	}
+	f.markBoundary()
+	return f, nil
+}
+
+func (m *Mesh) refine1() (*Mesh, error) {
+	nv, nc := len(m.Nodes), len(m.Cells)
+	if err := checkBudget(nv+nc, 2*nc); err != nil {
+		return nil, err
+	}
+	f := &Mesh{Dim: 1, Coarse: m, Nodes: make([]Point, nv+nc), Parents: make([][2]int32, nv+nc)}
+	copy(f.Nodes, m.Nodes)
+	for i := 0; i < nv; i++ {
+		f.Parents[i] = [2]int32{int32(i), int32(i)}
+	}
+	for k, c := range m.Cells {
+		mid := int32(nv + k)
+		f.Nodes[mid] = Point{X: (m.Nodes[c[0]].X + m.Nodes[c[1]].X) / 2}
+		f.Parents[mid] = [2]int32{c[0], c[1]}
+		f.Cells = append(f.Cells, [3]int32{c[0], mid, -1}, [3]int32{mid, c[1], -1})
+	}
+	f.Boundary = make([]bool, len(f.Nodes))
+	copy(f.Boundary, m.Boundary)
+	return f, nil
+}
