@@ -35,6 +35,9 @@ type Mesh struct {
 	// define the prolongation of P1 functions used by multigrid.
 	Coarse  *Mesh
 	Parents [][2]int32
+	// CellParent maps each cell of this mesh to the cell of Coarse it lies
+	// in (nil when Coarse is nil); adaptive loops transfer cell data with it.
+	CellParent []int32
 }
 
 // NumNodes returns the number of nodes.
@@ -177,8 +180,11 @@ func checkBudget(nodes, cells int) error {
 }
 
 // Refine returns the uniform refinement of m: every interval is halved,
-// every triangle is cut into four by its edge midpoints. The result keeps m
-// as its Coarse mesh, with Parents for the prolongation.
+// every triangle is cut into four by its edge midpoints (red refinement).
+// The result keeps m as its Coarse mesh, with Parents for the prolongation;
+// cell k of m becomes cells 4k…4k+3 (2k, 2k+1 in 1-D). The children are
+// labelled so that later newest-vertex bisection (Bisect) sees the same
+// similarity classes as on m.
 func (m *Mesh) Refine() (*Mesh, error) {
 	if m.Dim == 1 {
 		return m.refine1()
@@ -203,18 +209,30 @@ func (m *Mesh) Refine() (*Mesh, error) {
 		edgeIndex[ab] = int32(e)
 	}
 	f.Cells = make([][3]int32, 0, 4*len(m.Cells))
+	f.CellParent = make([]int32, 0, 4*len(m.Cells))
 	for k, c := range m.Cells {
 		// mid[i] is the midpoint of the edge opposite vertex i.
 		var mid [3]int32
 		for i := range 3 {
 			mid[i] = int32(nv) + cellEdges[k][i]
 		}
+		// Each child is the image of the parent under a similarity (the three
+		// homotheties of ratio 1/2 at the corners, the point reflection of
+		// ratio −1/2 for the middle one) and inherits the parent's labelling
+		// through it: the newest vertex of a child is the image of the
+		// parent's. So the children fall into the parent's similarity classes
+		// of newest-vertex bisection (Sewell 1972; Mitchell 1991), and a
+		// compatible labelling stays compatible: the middle child and the
+		// corner child at c[0] share their refinement edge, and the two halves
+		// of the parent's refinement edge are refinement edges of the corner
+		// children at c[1] and c[2].
 		f.Cells = append(f.Cells,
 			[3]int32{c[0], mid[2], mid[1]},
-			[3]int32{c[1], mid[0], mid[2]},
-			[3]int32{c[2], mid[1], mid[0]},
+			[3]int32{mid[2], c[1], mid[0]},
+			[3]int32{mid[1], mid[0], c[2]},
 			[3]int32{mid[0], mid[1], mid[2]},
 		)
+		f.CellParent = append(f.CellParent, int32(k), int32(k), int32(k), int32(k))
 	}
 	f.BoundaryEdges = make([][2]int32, 0, 2*len(m.BoundaryEdges))
 	for _, be := range m.BoundaryEdges {
@@ -242,6 +260,7 @@ func (m *Mesh) refine1() (*Mesh, error) {
 		f.Nodes[mid] = Point{X: (m.Nodes[c[0]].X + m.Nodes[c[1]].X) / 2}
 		f.Parents[mid] = [2]int32{c[0], c[1]}
 		f.Cells = append(f.Cells, [3]int32{c[0], mid, -1}, [3]int32{mid, c[1], -1})
+		f.CellParent = append(f.CellParent, int32(k), int32(k))
 	}
 	f.Boundary = make([]bool, len(f.Nodes))
 	copy(f.Boundary, m.Boundary)
