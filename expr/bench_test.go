@@ -24,7 +24,7 @@ func BenchmarkEval2(b *testing.B) {
 	}
 }
 
-// A potential g(t) with g, g', g'' as Newton needs them at each quadrature point.
+// A potential g(t) with g, g′, g″ as Newton needs them at each quadrature point.
 func BenchmarkScalar(b *testing.B) {
 	f := MustParse("(1 + t^2)^(1.5/2) + abs(t)^3/3", "t")
 	b.ReportAllocs()

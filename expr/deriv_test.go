@@ -199,7 +199,7 @@ var fdFormulas = []string{
 // TestDerivativesFiniteDifferences compares the AD gradient with gonum's central
 // differences of Eval, and the AD Hessian with gonum's central-difference
 // Jacobian of the AD gradient. Central differences with step h = 6e-6 have
-// truncation error ≈ h²|f'''|/6 ≈ 1e-11 and rounding error ≈ ε|f|/h ≈ 4e-11 for
+// truncation error ≈ h²|f‴|/6 ≈ 1e-11 and rounding error ≈ ε|f|/h ≈ 4e-11 for
 // |f| ≲ 1e1, so a relative tolerance of 1e-7 leaves room for larger third
 // derivatives while catching any wrong derivative rule (errors of order 1).
 func TestDerivativesFiniteDifferences(t *testing.T) {
@@ -237,7 +237,7 @@ func TestDerivativesFiniteDifferences(t *testing.T) {
 	}
 }
 
-// TestScalar checks g, g', g'' of potentials against closed forms and against
+// TestScalar checks g, g′, g″ of potentials against closed forms and against
 // Eval2 in one variable.
 func TestScalar(t *testing.T) {
 	tests := []struct {
