@@ -70,15 +70,3 @@ func TestIntervalRefine(t *testing.T) {
 		t.Fatalf("refined interval: %d cells, length %g, boundary %v", len(f.Cells), sum, f.Boundary)
 	}
 }
-
-func TestBadInput(t *testing.T) {
-	if _, err := Rectangle(0, 0, 0, 1, 2, 2); err == nil {
-		t.Error("degenerate rectangle accepted")
-	}
-	if _, err := Rectangle(0, 1, 0, 1, 5000, 5000); err == nil {
-		t.Error("mesh past the budget accepted")
-	}
-	if _, err := Interval(0, 1, 0); err == nil {
-		t.Error("interval with no cells accepted")
-	}
-}
