@@ -26,7 +26,7 @@ func (m *Mesh) Bisect(marked []bool) (*Mesh, error) {
 	if m.Dim == 1 {
 		return m.bisect1(marked)
 	}
-	edges, cellEdges := m.Edges()
+	lookup, edges, cellEdges := m.edgeTable()
 	// Cells around each edge (at most two), for the closure.
 	around := make([][2]int32, len(edges))
 	for e := range around {
@@ -120,15 +120,12 @@ func (m *Mesh) Bisect(marked []bool) (*Mesh, error) {
 			f.CellParent = append(f.CellParent, int32(k))
 		}
 	}
-	edgeIndex := make(map[[2]int32]int32, len(m.BoundaryEdges))
-	for e, ab := range edges {
-		if around[e][1] < 0 {
-			edgeIndex[ab] = int32(e)
-		}
-	}
 	f.BoundaryEdges = make([][2]int32, 0, len(m.BoundaryEdges)+count)
 	for _, be := range m.BoundaryEdges {
-		e := edgeIndex[[2]int32{min(be[0], be[1]), max(be[0], be[1])}]
+		e := lookup.find(be[0], be[1])
+		if e < 0 {
+			return nil, fmt.Errorf("bisect: boundary edge %v is not an edge of any cell", be)
+		}
 		if split[e] {
 			x := newNode[e]
 			f.BoundaryEdges = append(f.BoundaryEdges, [2]int32{be[0], x}, [2]int32{x, be[1]})

@@ -77,25 +77,71 @@ func (m *Mesh) Edges() (edges [][2]int32, cellEdges [][3]int32) {
 	if m.Dim != 2 {
 		return nil, nil
 	}
-	type key struct{ a, b int32 }
-	index := make(map[key]int32, 3*len(m.Cells)/2+len(m.BoundaryEdges))
+	_, edges, cellEdges = m.edgeTable()
+	return edges, cellEdges
+}
+
+// edgeLookup finds the number of the edge {a, b}: the edges of each node
+// to higher-numbered nodes sit in one short run of slots (compressed rows,
+// no hashing: Refine and Bisect spend most of their time here).
+type edgeLookup struct {
+	start, other, id []int32
+}
+
+func (t *edgeLookup) find(a, b int32) int32 {
+	if a > b {
+		a, b = b, a
+	}
+	for s := t.start[a]; s < t.start[a+1]; s++ {
+		if t.other[s] == b {
+			return t.id[s]
+		}
+		if t.other[s] < 0 {
+			break
+		}
+	}
+	return -1
+}
+
+// edgeTable numbers the edges in the order of their first appearance in
+// the cells.
+func (m *Mesh) edgeTable() (t *edgeLookup, edges [][2]int32, cellEdges [][3]int32) {
+	n := len(m.Nodes)
+	t = &edgeLookup{start: make([]int32, n+1)}
+	for _, c := range m.Cells {
+		for i := range 3 {
+			t.start[min(c[(i+1)%3], c[(i+2)%3])+1]++
+		}
+	}
+	for i := 0; i < n; i++ {
+		t.start[i+1] += t.start[i]
+	}
+	t.other = make([]int32, t.start[n])
+	t.id = make([]int32, t.start[n])
+	for i := range t.other {
+		t.other[i] = -1
+	}
+	edges = make([][2]int32, 0, 3*len(m.Cells)/2+len(m.BoundaryEdges))
 	cellEdges = make([][3]int32, len(m.Cells))
 	for k, c := range m.Cells {
-		for i := 0; i < 3; i++ {
+		for i := range 3 {
 			a, b := c[(i+1)%3], c[(i+2)%3]
 			if a > b {
 				a, b = b, a
 			}
-			e, ok := index[key{a, b}]
-			if !ok {
-				e = int32(len(edges))
-				index[key{a, b}] = e
+			s := t.start[a]
+			for t.other[s] >= 0 && t.other[s] != b {
+				s++
+			}
+			if t.other[s] < 0 {
+				t.other[s] = b
+				t.id[s] = int32(len(edges))
 				edges = append(edges, [2]int32{a, b})
 			}
-			cellEdges[k][i] = e
+			cellEdges[k][i] = t.id[s]
 		}
 	}
-	return edges, cellEdges
+	return t, edges, cellEdges
 }
 
 // Interval returns the uniform mesh of (a, b) with n cells.
@@ -189,7 +235,7 @@ func (m *Mesh) Refine() (*Mesh, error) {
 	if m.Dim == 1 {
 		return m.refine1()
 	}
-	edges, cellEdges := m.Edges()
+	lookup, edges, cellEdges := m.edgeTable()
 	nv := len(m.Nodes)
 	if err := checkBudget(nv+len(edges), 4*len(m.Cells)); err != nil {
 		return nil, err
@@ -201,12 +247,10 @@ func (m *Mesh) Refine() (*Mesh, error) {
 	for i := 0; i < nv; i++ {
 		f.Parents[i] = [2]int32{int32(i), int32(i)}
 	}
-	edgeIndex := make(map[[2]int32]int32, len(edges))
 	for e, ab := range edges {
 		p, q := m.Nodes[ab[0]], m.Nodes[ab[1]]
 		f.Nodes[nv+e] = Point{(p.X + q.X) / 2, (p.Y + q.Y) / 2}
 		f.Parents[nv+e] = ab
-		edgeIndex[ab] = int32(e)
 	}
 	f.Cells = make([][3]int32, 0, 4*len(m.Cells))
 	f.CellParent = make([]int32, 0, 4*len(m.Cells))
@@ -237,8 +281,11 @@ func (m *Mesh) Refine() (*Mesh, error) {
 	f.BoundaryEdges = make([][2]int32, 0, 2*len(m.BoundaryEdges))
 	for _, be := range m.BoundaryEdges {
 		a, b := be[0], be[1]
-		key := [2]int32{min(a, b), max(a, b)}
-		mid := int32(nv) + edgeIndex[key]
+		e := lookup.find(a, b)
+		if e < 0 {
+			return nil, fmt.Errorf("refine: boundary edge %v is not an edge of any cell", be)
+		}
+		mid := int32(nv) + e
 		f.BoundaryEdges = append(f.BoundaryEdges, [2]int32{a, mid}, [2]int32{mid, b})
 	}
 	f.markBoundary()
