@@ -35,33 +35,44 @@ func NewP1(m *mesh.Mesh) (*P1, error) {
 	if m == nil || (m.Dim != 1 && m.Dim != 2) {
 		return nil, fmt.Errorf("p1 space: need a 1-D or 2-D mesh")
 	}
+	area, grad, err := geometry(m)
+	if err != nil {
+		return nil, fmt.Errorf("p1 space: %w", err)
+	}
+	s := &P1{Mesh: m, Area: area, Grad: grad}
+	s.Free, s.FreeNodes = freeMap(m)
+	s.pattern, s.pos = cellPattern(m.Cells, m.Dim+1, m.NumNodes(), s.Free, s.FreeNodes)
+	return s, nil
+}
+
+// geometry returns the cell sizes and the gradients of the barycentric
+// coordinates of every cell.
+func geometry(m *mesh.Mesh) ([]float64, [][3][2]float64, error) {
 	nc := m.NumCells()
-	s := &P1{Mesh: m, Area: make([]float64, nc), Grad: make([][3][2]float64, nc)}
+	area, grad := make([]float64, nc), make([][3][2]float64, nc)
 	for k, c := range m.Cells {
 		if m.Dim == 1 {
 			h := m.Nodes[c[1]].X - m.Nodes[c[0]].X
 			if h == 0 || math.IsNaN(h) {
-				return nil, fmt.Errorf("p1 space: cell %d has zero length", k)
+				return nil, nil, fmt.Errorf("cell %d has zero length", k)
 			}
-			s.Area[k] = math.Abs(h)
-			s.Grad[k][0][0], s.Grad[k][1][0] = -1/h, 1/h
+			area[k] = math.Abs(h)
+			grad[k][0][0], grad[k][1][0] = -1/h, 1/h
 			continue
 		}
 		p0, p1, p2 := m.Nodes[c[0]], m.Nodes[c[1]], m.Nodes[c[2]]
 		det := (p1.X-p0.X)*(p2.Y-p0.Y) - (p2.X-p0.X)*(p1.Y-p0.Y)
 		if !(math.Abs(det) > 0) {
-			return nil, fmt.Errorf("p1 space: cell %d (nodes %d, %d, %d) is degenerate", k, c[0], c[1], c[2])
+			return nil, nil, fmt.Errorf("cell %d (nodes %d, %d, %d) is degenerate", k, c[0], c[1], c[2])
 		}
-		s.Area[k] = math.Abs(det) / 2
+		area[k] = math.Abs(det) / 2
 		// ∇λ_i is the inward normal of the opposite edge over twice the area:
 		// the edge vector rotated by 90°, divided by the determinant.
-		s.Grad[k][0] = [2]float64{(p1.Y - p2.Y) / det, (p2.X - p1.X) / det}
-		s.Grad[k][1] = [2]float64{(p2.Y - p0.Y) / det, (p0.X - p2.X) / det}
-		s.Grad[k][2] = [2]float64{(p0.Y - p1.Y) / det, (p1.X - p0.X) / det}
+		grad[k][0] = [2]float64{(p1.Y - p2.Y) / det, (p2.X - p1.X) / det}
+		grad[k][1] = [2]float64{(p2.Y - p0.Y) / det, (p0.X - p2.X) / det}
+		grad[k][2] = [2]float64{(p0.Y - p1.Y) / det, (p1.X - p0.X) / det}
 	}
-	s.Free, s.FreeNodes = freeMap(m)
-	s.pattern, s.pos = cellPattern(m, s.Free, s.FreeNodes)
-	return s, nil
+	return area, grad, nil
 }
 
 func freeMap(m *mesh.Mesh) (free, nodes []int32) {
@@ -77,14 +88,13 @@ func freeMap(m *mesh.Mesh) (free, nodes []int32) {
 	return free, nodes
 }
 
-// cellPattern builds the free-node adjacency pattern (rows in free
-// numbering) and, for each cell, the positions of its local entries.
-func cellPattern(m *mesh.Mesh, free, freeNodes []int32) (*CSR, [][9]int32) {
-	nv := m.Dim + 1
-	nn := m.NumNodes()
+// cellPattern builds the pattern of a space with nv degrees of freedom per
+// cell (cells[k][:nv], ndof in all, rows in free numbering) and, for each
+// cell, the positions of its local entries.
+func cellPattern(cells [][3]int32, nv, nn int, free, freeNodes []int32) (*CSR, [][9]int32) {
 	// Node → cells incidence, in CSR form, to collect neighbours in O(n).
 	start := make([]int32, nn+1)
-	for _, c := range m.Cells {
+	for _, c := range cells {
 		for a := range nv {
 			start[c[a]+1]++
 		}
@@ -94,7 +104,7 @@ func cellPattern(m *mesh.Mesh, free, freeNodes []int32) (*CSR, [][9]int32) {
 	}
 	inc := make([]int32, start[nn])
 	next := append([]int32(nil), start[:nn]...)
-	for k, c := range m.Cells {
+	for k, c := range cells {
 		for a := range nv {
 			inc[next[c[a]]] = int32(k)
 			next[c[a]]++
@@ -103,7 +113,7 @@ func cellPattern(m *mesh.Mesh, free, freeNodes []int32) (*CSR, [][9]int32) {
 	pat := patternFromRows(len(freeNodes), len(freeNodes), func(i int, buf []int32) []int32 {
 		node := freeNodes[i]
 		for _, k := range inc[start[node]:start[node+1]] {
-			for _, v := range m.Cells[k][:nv] {
+			for _, v := range cells[k][:nv] {
 				if f := free[v]; f >= 0 {
 					buf = append(buf, f)
 				}
@@ -111,8 +121,8 @@ func cellPattern(m *mesh.Mesh, free, freeNodes []int32) (*CSR, [][9]int32) {
 		}
 		return buf
 	})
-	pos := make([][9]int32, len(m.Cells))
-	for k, c := range m.Cells {
+	pos := make([][9]int32, len(cells))
+	for k, c := range cells {
 		for a := range 3 {
 			for b := range 3 {
 				pos[k][3*a+b] = -1
