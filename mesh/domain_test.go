@@ -388,3 +388,48 @@ func randomMarks(r *rand.Rand, n int, p float64) []bool {
 	}
 	return m
 }
+
+// The ring construction keeps the coarse disk mesh shape-regular for every
+// n, where a fan from the centre would have angles 2π/n (1.8° at n = 200).
+// Observed minimum over n = 3…500: 24.65° (n = 10, 16); 30° for n ≥ 24.
+func TestDiskQuality(t *testing.T) {
+	for _, n := range []int{3, 5, 7, 10, 16, 24, 64, 200} {
+		m := must(t)(Disk(1, n, 10))
+		if a := m.MinAngle() * 180 / math.Pi; a < 24 {
+			t.Errorf("disk with %d vertices: minimum angle %.2f°, want ≥ 24°", n, a)
+		}
+		// The boundary is the n-gon itself: n boundary edges, each a side
+		// of length 2 sin(π/n).
+		if len(m.BoundaryEdges) != n {
+			t.Fatalf("disk with %d vertices: %d boundary edges", n, len(m.BoundaryEdges))
+		}
+		for _, e := range m.BoundaryEdges {
+			p, q := m.Nodes[e[0]], m.Nodes[e[1]]
+			if l := math.Hypot(q.X-p.X, q.Y-p.Y); math.Abs(l-2*math.Sin(math.Pi/float64(n))) > 1e-12 {
+				t.Fatalf("disk with %d vertices: boundary edge of length %g", n, l)
+			}
+		}
+	}
+}
+
+// Edges: cellEdges[k][i] is the edge opposite vertex i of cell k, stored with
+// the lower node first, and each edge appears once.
+func TestEdges(t *testing.T) {
+	m := must(t)(Disk(1, 12, 0.3))
+	edges, ce := m.Edges()
+	seen := map[[2]int32]bool{}
+	for _, e := range edges {
+		if e[0] >= e[1] || seen[e] {
+			t.Fatalf("edge %v out of order or repeated", e)
+		}
+		seen[e] = true
+	}
+	for k, c := range m.Cells {
+		for i := range 3 {
+			a, b := c[(i+1)%3], c[(i+2)%3]
+			if edges[ce[k][i]] != [2]int32{min(a, b), max(a, b)} {
+				t.Fatalf("cell %d: edge opposite vertex %d is %v, want {%d, %d}", k, i, edges[ce[k][i]], a, b)
+			}
+		}
+	}
+}
