@@ -33,10 +33,11 @@ type Formula struct {
 	used  []bool
 	code  []instr
 	depth int // largest stack height reached by code
+	nreg  int // registers for repeated subexpressions
 
-	stack []float64 // Eval: depth values
-	jets  []float64 // Eval2: depth slots of 1 + n + n(n+1)/2
-	sjets []float64 // Scalar: depth slots of 3
+	stack []float64 // Eval: depth + nreg values
+	jets  []float64 // Eval2: depth + nreg slots of 1 + n + n(n+1)/2
+	sjets []float64 // Scalar: depth + nreg slots of 3
 }
 
 // Parse reads src as a formula in the variables vars, in this order; Eval and
@@ -59,7 +60,11 @@ func Parse(src string, vars ...string) (*Formula, error) {
 		return nil, err
 	}
 	f := &Formula{src: src, vars: append([]string(nil), vars...), used: make([]bool, len(vars))}
-	f.depth = f.compile(root)
+	c := &compiler{f: f, ids: map[nodeKey]int{}, reg: map[int]int{}}
+	c.intern(root)
+	c.count(root)
+	f.depth = c.compile(root)
+	f.nreg = len(c.reg)
 	f.alloc()
 	return f, nil
 }
@@ -75,9 +80,10 @@ func MustParse(src string, vars ...string) *Formula {
 
 func (f *Formula) alloc() {
 	n := len(f.vars)
-	f.stack = make([]float64, f.depth)
-	f.jets = make([]float64, f.depth*(1+n+n*(n+1)/2))
-	f.sjets = make([]float64, 3*f.depth)
+	slots := f.depth + f.nreg
+	f.stack = make([]float64, slots)
+	f.jets = make([]float64, slots*(1+n+n*(n+1)/2))
+	f.sjets = make([]float64, 3*slots)
 }
 
 // Clone returns a Formula sharing the compiled program but with its own
@@ -107,43 +113,113 @@ func (f *Formula) Uses(name string) bool {
 // String returns the source.
 func (f *Formula) String() string { return f.src }
 
-// compile appends the program for n to f.code and returns the stack height it
-// needs. A constant operand of + - * / ^ becomes an immediate, so that the
-// common 2*x, x^2, x-1 cost one instruction and no stack slot.
-func (f *Formula) compile(n *node) int {
+// nodeKey identifies a subtree up to structure, for common-subexpression
+// elimination.
+type nodeKey struct {
+	op   opcode
+	k    uint64
+	v    int
+	a, b int
+}
+
+// compiler turns a folded parse tree into the flat program. Subtrees that occur
+// more than once are computed once, kept in a register and loaded again: user
+// formulas such as manufactured sources repeat sin(pi*x)*sin(pi*y) often.
+type compiler struct {
+	f    *Formula
+	ids  map[nodeKey]int
+	uses []int
+	reg  map[int]int
+}
+
+// intern numbers the structural classes of the subtrees of n.
+func (c *compiler) intern(n *node) int {
+	key := nodeKey{op: n.op, k: math.Float64bits(n.k), v: n.v, a: -1, b: -1}
+	if n.a != nil {
+		key.a = c.intern(n.a)
+	}
+	if n.b != nil {
+		key.b = c.intern(n.b)
+	}
+	id, ok := c.ids[key]
+	if !ok {
+		id = len(c.ids)
+		c.ids[key] = id
+		c.uses = append(c.uses, 0)
+	}
+	n.id = id
+	return id
+}
+
+// count records how often each class is needed; a repeated subtree's own
+// children are needed only once.
+func (c *compiler) count(n *node) {
+	c.uses[n.id]++
+	if c.uses[n.id] == 1 {
+		if n.a != nil {
+			c.count(n.a)
+		}
+		if n.b != nil {
+			c.count(n.b)
+		}
+	}
+}
+
+func (c *compiler) emit(op opcode, idx int, k float64) {
+	c.f.code = append(c.f.code, instr{op: op, idx: int32(idx), k: k})
+}
+
+// compile appends the program for n and returns the stack height it needs. A
+// constant operand of + - * / ^ becomes an immediate, so that the common 2*x,
+// x^2, x-1 cost one instruction and no stack slot.
+func (c *compiler) compile(n *node) int {
+	if r, ok := c.reg[n.id]; ok {
+		c.emit(opLoad, r, 0)
+		return 1
+	}
+	d := c.compileNode(n)
+	if c.uses[n.id] > 1 && n.op != opConst && n.op != opVar {
+		r := len(c.reg)
+		c.reg[n.id] = r
+		c.emit(opStore, r, 0)
+	}
+	return d
+}
+
+func (c *compiler) compileNode(n *node) int {
 	switch {
 	case n.op == opConst:
-		f.code = append(f.code, instr{op: opConst, k: n.k})
+		c.emit(opConst, 0, n.k)
 		return 1
 	case n.op == opVar:
-		f.used[n.v] = true
-		f.code = append(f.code, instr{op: opVar, idx: int32(n.v)})
+		c.f.used[n.v] = true
+		c.emit(opVar, n.v, 0)
 		return 1
 	case !n.op.isBinary():
-		d := f.compile(n.a)
-		f.code = append(f.code, instr{op: n.op, k: n.k})
+		d := c.compile(n.a)
+		c.emit(n.op, 0, n.k)
 		return d
 	}
 	a, b := n.a, n.b
 	if b.op == opConst {
 		if op, k, ok := immediateRight(n.op, b.k); ok {
-			d := f.compile(a)
+			d := c.compile(a)
 			if op != opConst { // x^1 needs no instruction
-				f.code = append(f.code, instr{op: op, k: k})
+				c.emit(op, 0, k)
 			}
 			return d
 		}
 	}
 	if a.op == opConst {
 		if op, ok := immediateLeft(n.op); ok {
-			d := f.compile(b)
-			f.code = append(f.code, instr{op: op, k: a.k})
+			d := c.compile(b)
+			c.emit(op, 0, a.k)
 			return d
 		}
 	}
-	da := f.compile(a)
-	db := f.compile(b)
-	f.code = append(f.code, instr{op: n.op})
+	da := c.compile(a)
+	db := c.compile(b)
+	c.emit(n.op, 0, 0)
 	return max(da, db+1)
 }
 
@@ -192,10 +268,15 @@ func immediateLeft(op opcode) (opcode, bool) {
 // order given to Parse (len(p) must be at least len(Vars())). It does not
 // allocate. Domain errors give NaN, as in IEEE arithmetic.
 func (f *Formula) Eval(p []float64) float64 {
-	st := f.stack
+	st, reg := f.stack[:f.depth], f.stack[f.depth:]
 	sp := -1
 	for _, in := range f.code {
 		switch in.op {
+		case opStore:
+			reg[in.idx] = st[sp]
+		case opLoad:
+			sp++
+			st[sp] = reg[in.idx]
 		case opConst:
 			sp++
 			st[sp] = in.k
@@ -252,10 +333,17 @@ func (f *Formula) Eval2(p, grad, hess []float64) float64 {
 	n := len(f.vars)
 	m := n * (n + 1) / 2
 	w := 1 + n + m
-	J := f.jets
+	J, R := f.jets[:f.depth*w], f.jets[f.depth*w:]
 	top := -w // offset of the top slot
 	for _, in := range f.code {
 		switch in.op {
+		case opStore:
+			r := int(in.idx) * w
+			copy(R[r:r+w], J[top:top+w])
+		case opLoad:
+			top += w
+			r := int(in.idx) * w
+			copy(J[top:top+w], R[r:r+w])
 		case opConst, opVar:
 			top += w
 			s := J[top : top+w]
@@ -378,10 +466,17 @@ func (f *Formula) Scalar(t float64) (v, d1, d2 float64) {
 		nan := math.NaN()
 		return nan, nan, nan
 	}
-	J := f.sjets
+	J, R := f.sjets[:3*f.depth], f.sjets[3*f.depth:]
 	top := -3
 	for _, in := range f.code {
 		switch in.op {
+		case opStore:
+			r := 3 * int(in.idx)
+			R[r], R[r+1], R[r+2] = J[top], J[top+1], J[top+2]
+		case opLoad:
+			top += 3
+			r := 3 * int(in.idx)
+			J[top], J[top+1], J[top+2] = R[r], R[r+1], R[r+2]
 		case opConst:
 			top += 3
 			J[top], J[top+1], J[top+2] = in.k, 0, 0

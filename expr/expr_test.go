@@ -229,6 +229,50 @@ func TestConstantFolding(t *testing.T) {
 	}
 }
 
+// TestSharedSubexpressions checks that a repeated subtree is computed once and
+// gives the same value and derivatives as computing it twice.
+func TestSharedSubexpressions(t *testing.T) {
+	if got := len(MustParse("sin(x)*sin(x)", "x").code); got != 5 { // var sin store load mul
+		t.Errorf("sin(x)*sin(x) compiles to %d instructions, want 5", got)
+	}
+	one := MustParse("sin(x*y)*exp(-t)", xyt...)
+	two := MustParse("sin(x*y)*exp(-t) + 3*(sin(x*y)*exp(-t)) - exp(-t)", xyt...)
+	p := []float64{0.4, 1.3, 0.2}
+	g1, h1 := make([]float64, 3), make([]float64, 9)
+	g2, h2 := make([]float64, 3), make([]float64, 9)
+	v1 := one.Eval2(p, g1, h1)
+	v2 := two.Eval2(p, g2, h2)
+	// ∂/∂t and ∂²/∂t² of -exp(-t) are exp(-t) and -exp(-t).
+	e := math.Exp(-0.2)
+	if !closeTo(v2, 4*v1-e, 1e-15) || two.Eval(p) != v2 {
+		t.Errorf("value %v (Eval %v), want %v", v2, two.Eval(p), 4*v1-e)
+	}
+	for i := range g1 {
+		want := 4 * g1[i]
+		if i == 2 {
+			want += e
+		}
+		if !closeTo(g2[i], want, 1e-15) {
+			t.Errorf("grad[%d] = %v, want %v", i, g2[i], want)
+		}
+	}
+	for i := range h1 {
+		want := 4 * h1[i]
+		if i == 8 {
+			want -= e
+		}
+		if !closeTo(h2[i], want, 1e-14) {
+			t.Errorf("hess[%d] = %v, want %v", i, h2[i], want)
+		}
+	}
+	s := MustParse("sin(t)^2 + sin(t)", "t")
+	v, d1, d2 := s.Scalar(0.3)
+	sn, cs := math.Sincos(0.3)
+	if !closeTo(v, sn*sn+sn, 1e-15) || !closeTo(d1, 2*sn*cs+cs, 1e-15) || !closeTo(d2, 2*(cs*cs-sn*sn)-sn, 1e-15) {
+		t.Errorf("Scalar of sin(t)^2 + sin(t) = %v %v %v", v, d1, d2)
+	}
+}
+
 func TestAllocs(t *testing.T) {
 	f := MustParse("sin(pi*x)*sin(pi*y)*exp(-t) + (x^2 + y^2)^0.75 + atan2(y, x)", xyt...)
 	g := MustParse("abs(t)^3/3 + log(1 + t^2)", "t")

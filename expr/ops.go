@@ -10,6 +10,8 @@ type opcode uint8
 const (
 	opConst opcode = iota
 	opVar
+	opStore // copy the top of the stack to register idx
+	opLoad  // push register idx
 
 	// One argument u, and an immediate k for the *K forms.
 	opNeg
@@ -72,6 +74,7 @@ type node struct {
 	v    int     // variable index
 	a, b *node
 	col  int
+	id   int // class of structurally equal subtrees, set by the compiler
 }
 
 func constNode(v float64, col int) *node { return &node{op: opConst, k: v, col: col} }
@@ -160,11 +163,17 @@ func unaryJet(op opcode, k, u float64) (v, d1, d2 float64) {
 		// that x^3 at x = -1 and x^2 at x = 0 have finite derivatives; the
 		// vanishing coefficients are kept exact to avoid 0·∞.
 		v = math.Pow(u, k)
-		if k != 0 {
-			d1 = k * math.Pow(u, k-1)
-			if k != 1 {
-				d2 = k * (k - 1) * math.Pow(u, k-2)
-			}
+		if k == 0 {
+			return v, 0, 0
+		}
+		if v != 0 && !math.IsInf(v, 0) && !math.IsNaN(v) {
+			// u ≠ 0 and u^k finite: two divisions instead of two more powers.
+			d1 = k * v / u
+			return v, d1, (k - 1) * d1 / u
+		}
+		d1 = k * math.Pow(u, k-1)
+		if k != 1 {
+			d2 = k * (k - 1) * math.Pow(u, k-2)
 		}
 		return v, d1, d2
 	case opRPowK:
