@@ -353,9 +353,11 @@ func TestBadInput(t *testing.T) {
 		{"fold back", func() error { _, err := Polygon([]Point{{0, 0}, {2, 0}, {1, 0}, {1, 1}}, 1); return err }, []string{"fold back"}},
 		{"h zero", func() error { _, err := Polygon([]Point{{0, 0}, {1, 0}, {0, 1}}, 0); return err }, []string{"h must be positive", "got 0"}},
 		{"h NaN", func() error { _, err := Disk(1, 8, nan); return err }, []string{"h must be positive"}},
+		// √2/2^14 ≤ 1e-4 needs 14 levels; a triangle cut into 2^14 per side
+		// has (2^14+1)(2^14+2)/2 = 134242305 nodes.
 		{"polygon past budget", func() error { _, err := Polygon([]Point{{0, 0}, {1, 0}, {0, 1}}, 1e-4); return err },
-			[]string{"mesh too large", "uniform refinements", "nodes", "3000000"}},
-		{"disk past budget", func() error { _, err := Disk(1, 64, 1e-300); return err }, []string{"mesh too large"}},
+			[]string{"mesh too large", "14 uniform refinements", "about 1.34e+08 nodes", "3000000"}},
+		{"disk past budget", func() error { _, err := Disk(1, 64, 1e-300); return err }, []string{"mesh too large", "995 uniform refinements", "more than 1e30 nodes"}},
 		{"disk radius", func() error { _, err := Disk(-1, 8, 0.1); return err }, []string{"radius must be positive"}},
 		{"disk sides", func() error { _, err := Disk(1, 2, 0.1); return err }, []string{"at least 3 vertices"}},
 		{"L-shape zero", func() error { _, err := LShape(0); return err }, []string{"at least 1 cell"}},

@@ -20,7 +20,7 @@ func LShape(n int) (*Mesh, error) {
 		return nil, fmt.Errorf("mesh too large: L-shape with %d cells per unit length, the limit is %d nodes (about 1 KB per node for solve and bounds; WebAssembly has under 4 GB)", n, MaxNodes)
 	}
 	if err := checkBudget(3*n*n+4*n+1, 6*n*n); err != nil {
-		return nil, err
+		return nil, fmt.Errorf("L-shape: %w", err)
 	}
 	k := 0
 	for n%2 == 0 {
@@ -192,18 +192,22 @@ func (m *Mesh) labelLongestEdge() {
 // (V, E, F) to (V + E, 2E + 3F, 4F).
 func (m *Mesh) refineTo(h float64, what string) (*Mesh, error) {
 	levels := 0
-	for H := m.MaxH(); H > h; H /= 2 {
+	for H := m.MaxH(); H > h && levels < 2000; H /= 2 {
 		levels++
-		if levels > 40 {
-			break
-		}
 	}
 	edges, _ := m.Edges()
-	v, e, f := len(m.Nodes), len(edges), len(m.Cells)
+	v, e, f := float64(len(m.Nodes)), float64(len(edges)), float64(len(m.Cells))
 	for l := 0; l < levels; l++ {
 		v, e, f = v+e, 2*e+3*f, 4*f
-		if v > MaxNodes || levels > 40 {
-			return nil, fmt.Errorf("%s: mesh too large: h = %g needs %d uniform refinements and more than %d nodes; the limit is %d nodes (about 1 KB per node for solve and bounds; WebAssembly has under 4 GB)", what, h, levels, v, MaxNodes)
+		if v > MaxNodes {
+			for ; l < levels-1; l++ {
+				v, e, f = v+e, 2*e+3*f, 4*f
+			}
+			size := fmt.Sprintf("about %.3g", v)
+			if v > 1e30 {
+				size = "more than 1e30"
+			}
+			return nil, fmt.Errorf("%s: mesh too large: h = %g needs %d uniform refinements, %s nodes; the limit is %d nodes (about 1 KB per node for solve and bounds; WebAssembly has under 4 GB)", what, h, levels, size, MaxNodes)
 		}
 	}
 	for l := 0; l < levels; l++ {
