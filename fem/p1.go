@@ -179,16 +179,22 @@ func (s *P1) Stiffness(coef [][3]float64, a *CSR) error {
 	}
 	clear(a.Val)
 	nv := s.Mesh.Dim + 1
+	val := a.Val
 	for k := range s.pos {
 		pos := &s.pos[k]
-		var c *[3]float64
+		g := &s.Grad[k]
+		c := [3]float64{1, 0, 1}
 		if coef != nil {
-			c = &coef[k]
+			c = coef[k]
 		}
+		ar := s.Area[k]
 		for i := range nv {
+			// |T| C∇λ_i, then its products with every ∇λ_j.
+			cx := ar * (c[0]*g[i][0] + c[1]*g[i][1])
+			cy := ar * (c[1]*g[i][0] + c[2]*g[i][1])
 			for j := range nv {
 				if p := pos[3*i+j]; p >= 0 {
-					a.Val[p] += s.local(k, i, j, c)
+					val[p] += cx*g[j][0] + cy*g[j][1]
 				}
 			}
 		}
