@@ -1,0 +1,140 @@
+package notebook
+
+import (
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"time"
+)
+
+// BatchOptions steer RunFile, the headless evaluation behind `gapbook run`.
+type BatchOptions struct {
+	// JSON prints one object with a cells array to Stdout.
+	JSON bool
+	// Report, when set, is the path of an HTML report to write.
+	Report string
+	// Stdout receives the JSON; Stderr one progress line per cell.
+	Stdout, Stderr io.Writer
+}
+
+// BatchCell is one cell in the JSON printed by RunFile.
+type BatchCell struct {
+	ID     string                `json:"id"`
+	Kind   string                `json:"kind"`
+	Status Status                `json:"status"`
+	Error  string                `json:"error"`
+	Values map[string]BatchValue `json:"values"`
+	Digest string                `json:"digest,omitempty"`
+	// Reproduced is "yes" or "no" when the file had results for the same
+	// inputs, else empty.
+	Reproduced string `json:"reproduced,omitempty"`
+}
+
+// BatchValue is one named scalar in the JSON; Value is null when it is
+// not a finite number.
+type BatchValue struct {
+	Value *float64 `json:"value"`
+	Label Label    `json:"label"`
+	Unit  string   `json:"unit,omitempty"`
+}
+
+// BatchOutput is the object printed with --json.
+type BatchOutput struct {
+	Title string      `json:"title"`
+	OK    bool        `json:"ok"`
+	Cells []BatchCell `json:"cells"`
+}
+
+// RunFile loads the notebook at path, evaluates it with one progress line
+// per cell, prints JSON and writes a report as asked. It returns the
+// output and whether every cell is ok; err is for a file that cannot be
+// read, loaded or written.
+func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bool, error) {
+	if o.Stderr == nil {
+		o.Stderr = io.Discard
+	}
+	if o.Stdout == nil {
+		o.Stdout = io.Discard
+	}
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return nil, false, err
+	}
+	nb, err := Load(data)
+	if nb == nil {
+		return nil, false, fmt.Errorf("%s:\n%v", path, err)
+	}
+	if err != nil {
+		// Input problems: report them, then evaluate so each cell shows its own.
+		fmt.Fprintf(o.Stderr, "%s: problems in cell inputs:\n%v\n", path, err)
+	}
+	start := time.Now()
+	cellStart := start
+	ev, err := NewEngine().Evaluate(ctx, nb, Options{Progress: func(p Progress) {
+		if !p.Done {
+			if p.Fraction == 0 {
+				cellStart = time.Now()
+			}
+			return
+		}
+		line := fmt.Sprintf("[%d/%d] %s (%s): %s", p.Index+1, p.Count, p.ID, p.Kind, p.Outcome.Status)
+		if p.Outcome.Err != nil {
+			line += ": " + p.Outcome.Err.Error()
+		}
+		switch p.Outcome.Reproduced {
+		case "yes":
+			line += ", reproduced"
+		case "no":
+			line += ", differs from the saved results"
+		}
+		fmt.Fprintf(o.Stderr, "%s (%.2f s)\n", line, time.Since(cellStart).Seconds())
+	}})
+	if err != nil {
+		return nil, false, err
+	}
+	out := batchOutput(nb, ev)
+	if o.JSON {
+		b, err := json.MarshalIndent(out, "", "  ")
+		if err != nil {
+			return nil, false, err
+		}
+		if _, err := o.Stdout.Write(append(b, '\n')); err != nil {
+			return nil, false, err
+		}
+	}
+	if o.Report != "" {
+		if err := os.WriteFile(o.Report, Report(nb, ev), 0o644); err != nil {
+			return nil, false, err
+		}
+	}
+	fmt.Fprintf(o.Stderr, "%d cells in %.2f s\n", len(ev.Cells), time.Since(start).Seconds())
+	return out, out.OK, nil
+}
+
+func batchOutput(nb *Notebook, ev *Evaluation) *BatchOutput {
+	out := &BatchOutput{Title: nb.Title, OK: true, Cells: []BatchCell{}}
+	for _, o := range ev.Cells {
+		bc := BatchCell{ID: o.ID, Kind: o.Kind, Status: o.Status, Values: map[string]BatchValue{}, Digest: o.Digest, Reproduced: o.Reproduced}
+		if o.Err != nil {
+			bc.Error = o.Err.Error()
+		}
+		if o.Status != StatusOK {
+			out.OK = false
+		}
+		if o.Results != nil {
+			for _, s := range o.Results.Scalars {
+				bv := BatchValue{Label: s.Label, Unit: s.Unit}
+				if !math.IsNaN(s.Value) && !math.IsInf(s.Value, 0) {
+					v := s.Value
+					bv.Value = &v
+				}
+				bc.Values[s.Name] = bv
+			}
+		}
+		out.Cells = append(out.Cells, bc)
+	}
+	return out
+}
