@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"runtime"
 	"testing"
 )
 
@@ -138,5 +139,38 @@ func BenchmarkSetup(b *testing.B) {
 		if _, err := NewMultigrid(s); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// BenchmarkMillion solves on 1024 cells per side (about a million unknowns)
+// and reports the live heap after a Newton-like step.
+func BenchmarkMillion(b *testing.B) {
+	for b.Loop() {
+		s := benchSpace(b, 1024)
+		a := s.NewMatrix()
+		s.Stiffness(pLaplaceCoef(s), a)
+		mg, err := NewMultigrid(s)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if err := mg.Update(a); err != nil {
+			b.Fatal(err)
+		}
+		rhs := make([]float64, s.NumFree())
+		for i := range rhs {
+			rhs[i] = 1
+		}
+		x := make([]float64, s.NumFree())
+		st, err := PCG(context.Background(), a, mg, rhs, x, 1e-10, 100)
+		if err != nil {
+			b.Fatal(err)
+		}
+		runtime.GC()
+		var ms runtime.MemStats
+		runtime.ReadMemStats(&ms)
+		b.ReportMetric(float64(ms.HeapInuse)/1e6, "MB-live")
+		b.ReportMetric(float64(st.Iterations), "iterations")
+		b.ReportMetric(float64(s.NumFree()), "unknowns")
+		runtime.KeepAlive(mg)
 	}
 }
