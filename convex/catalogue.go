@@ -121,7 +121,7 @@ func (q quadratic) scalarGap(t, s float64) float64 {
 }
 
 // regPower is g(t) = ((ε²+t²)^{α/2} − ε^α)/α.
-type regPower struct{ alpha, eps float64 }
+type regPower struct{ alpha, eps, epsA float64 }
 
 // RegPower returns the regularised power potential
 // g(t) = ((ε² + t²)^{α/2} − ε^α)/α, α > 1, ε ≥ 0 (ε = 0 is Power(α)). It is
@@ -135,7 +135,7 @@ func RegPower(alpha, epsilon float64) (Potential, error) {
 	if !(epsilon >= 0) || math.IsInf(epsilon, 0) {
 		return nil, fmt.Errorf("regularised power potential: ε = %s is not allowed; ε must be a finite number ≥ 0", fmtG(epsilon))
 	}
-	return regPower{alpha, epsilon}, nil
+	return regPower{alpha, epsilon, math.Pow(epsilon, alpha)}, nil
 }
 
 func (p regPower) Profile(t float64) (g, g1, g2 float64) {
@@ -150,9 +150,9 @@ func (p regPower) Profile(t float64) (g, g1, g2 float64) {
 	if t < e {
 		// (ε²+t²)^{α/2} − ε^α cancels for t ≪ ε.
 		z := t / e
-		g = math.Pow(e, a) * math.Expm1(a/2*math.Log1p(z*z)) / a
+		g = p.epsA * math.Expm1(a/2*math.Log1p(z*z)) / a
 	} else {
-		g = (q*r2*r2 - math.Pow(e, a)) / a
+		g = (q*r2*r2 - p.epsA) / a
 	}
 	return g, g1, g2
 }

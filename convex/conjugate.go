@@ -127,8 +127,10 @@ func invertSlope(prof func(t float64) (g, g1, g2 float64), s, guess float64) flo
 			hi = lo
 		}
 	}
+	// The guess is an end of the bracket; starting Newton there (rather than
+	// at the midpoint) keeps a good guess from being thrown away.
 	t := guess
-	if !(t > lo && t < hi) {
+	if !(t >= lo && t <= hi) {
 		t = lo + 0.5*(hi-lo)
 	}
 	for it := 0; it < 200; it++ {
@@ -143,7 +145,7 @@ func invertSlope(prof func(t float64) (g, g1, g2 float64), s, guess float64) flo
 			lo = t
 		}
 		next := t - r/g2
-		if !(next > lo && next < hi) {
+		if !(next >= lo && next <= hi) {
 			next = lo + 0.5*(hi-lo)
 		}
 		if math.Abs(next-t) <= 2*eps*next || hi-lo <= 2*eps*hi {
