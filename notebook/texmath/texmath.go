@@ -601,8 +601,11 @@ func (p *parser) primary() (atom, bool) {
 		return atom{ml: "<mo>\u2217</mo>", kind: kOp}, true
 	case '(', '[':
 		return atom{ml: `<mo stretchy="false">` + string(r) + "</mo>", kind: kOpen}, true
-	case ')', ']', '|':
+	case ')', ']':
 		return atom{ml: `<mo stretchy="false">` + string(r) + "</mo>", kind: kOp}, true
+	case '|':
+		// As in TeX, a bar is an ordinary symbol: no operator spacing.
+		return atom{ml: `<mo stretchy="false" lspace="0" rspace="0">|</mo>`, kind: kOp}, true
 	case '\uFFFD':
 		return atom{ml: errorText("invalid character"), kind: kOrd}, true
 	}
@@ -633,7 +636,10 @@ func (p *parser) command() (atom, bool) {
 		case "{", "⟨", "⌊", "⌈":
 			k = kOpen
 		}
-		if k == kOpen || s == "}" || s == "⟩" || s == "⌋" || s == "⌉" || s == "‖" || s == "|" {
+		if s == "‖" || s == "|" {
+			return atom{ml: `<mo stretchy="false" lspace="0" rspace="0">` + s + "</mo>", kind: k}, true
+		}
+		if k == kOpen || s == "}" || s == "⟩" || s == "⌋" || s == "⌉" {
 			return atom{ml: `<mo stretchy="false">` + esc(s) + "</mo>", kind: k}, true
 		}
 		return atom{ml: "<mo>" + esc(s) + "</mo>", kind: k}, true

@@ -52,8 +52,8 @@ func TestMathML(t *testing.T) {
 		{`\left\| x \right.`, false, []string{`<mrow><mo fence="true" stretchy="true" symmetric="true">‖</mo><mi>x</mi></mrow>`}},
 		{`\left\langle a \middle| b \right\rangle`, false, []string{`>⟨</mo>`, `<mo stretchy="true" symmetric="true">|</mo>`, `>⟩</mo>`}},
 		{`\big( \Bigr]`, false, []string{`<mo stretchy="true" symmetric="true" minsize="1.2em" maxsize="1.2em">(</mo>`, `minsize="1.8em" maxsize="1.8em">]</mo>`}},
-		{`\|u\|`, false, []string{`<mo stretchy="false">‖</mo><mi>u</mi><mo stretchy="false">‖</mo>`}},
-		{`|x|`, false, []string{`<mo stretchy="false">|</mo><mi>x</mi><mo stretchy="false">|</mo>`}},
+		{`\|u\|`, false, []string{`<mo stretchy="false" lspace="0" rspace="0">‖</mo><mi>u</mi><mo stretchy="false" lspace="0" rspace="0">‖</mo>`}},
+		{`|x|`, false, []string{`<mo stretchy="false" lspace="0" rspace="0">|</mo><mi>x</mi><mo stretchy="false" lspace="0" rspace="0">|</mo>`}},
 		{`\mathrm{d}x`, false, []string{`<mi mathvariant="normal">d</mi><mi>x</mi>`}},
 		{`\mathrm{div}`, false, []string{`<mi>div</mi>`}},
 		{`\mathbf{u}`, false, []string{`<mi>𝐮</mi>`}},
@@ -118,7 +118,7 @@ var allowedAttrs = map[string]bool{
 	"xmlns": true, "display": true, "mathvariant": true, "stretchy": true,
 	"symmetric": true, "fence": true, "minsize": true, "maxsize": true, "width": true,
 	"accent": true, "accentunder": true, "displaystyle": true, "columnalign": true,
-	"style": true, "class": true, "linethickness": true,
+	"style": true, "class": true, "linethickness": true, "lspace": true, "rspace": true,
 }
 
 // wellFormed parses s as XML and checks it uses only the allowed
