@@ -315,7 +315,7 @@ func (f *Formula) Eval(p []float64) float64 {
 
 // Eval2 returns the value of the formula at p and stores its gradient in grad
 // (len n) and its Hessian in hess (n×n, row-major, symmetric), where n is the
-// number of variables. The derivatives are computed by forward-mode automatic
+// number of variables; p, grad and hess must be at least that long. The derivatives are computed by forward-mode automatic
 // differentiation with second-order jets (value, gradient, packed upper Hessian
 // per stack slot), propagated by the chain rules
 //
