@@ -571,7 +571,7 @@ func checkDuplicateKeys(data []byte) *Problem {
 func syntaxMsg(data []byte, err error) string {
 	var se *json.SyntaxError
 	if errors.As(err, &se) {
-		return fmt.Sprintf("not valid JSON at %s: %s", lineCol(data, se.Offset), se.Error())
+		return fmt.Sprintf("not valid JSON at %s: %s", lineCol(data, max(se.Offset-1, 0)), se.Error())
 	}
 	if errors.Is(err, errors.New("EOF")) || err.Error() == "EOF" {
 		return "file is empty; want a JSON object"

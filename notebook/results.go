@@ -376,7 +376,13 @@ func describe(kind, name, a, b string) string {
 			n++
 		}
 	}
-	return fmt.Sprintf("%s %s: %d of %d numbers differ", kind, name, n, max(len(la), len(lb)))
+	if len(la) != len(lb) {
+		return fmt.Sprintf("%s %s: its shape changed", kind, name)
+	}
+	if n == 1 {
+		return fmt.Sprintf("%s %s: 1 value differs", kind, name)
+	}
+	return fmt.Sprintf("%s %s: %d values differ", kind, name, n)
 }
 
 // num is a float64 that also travels through JSON when it is not finite
