@@ -241,6 +241,13 @@ func (p *parser) top() string {
 func join(atoms []atom) string {
 	var b strings.Builder
 	for i, a := range atoms {
+		if a.kind == kOp && (i == 0 || atoms[i-1].kind == kOp || atoms[i-1].kind == kOpen) {
+			switch a.ml {
+			case "<mo>\u2212</mo>", "<mo>+</mo>", "<mo>±</mo>", "<mo>∓</mo>":
+				// A sign after a relation or an opening is unary, as in TeX.
+				a.ml = `<mo form="prefix">` + a.ml[4:]
+			}
+		}
 		b.WriteString(a.ml)
 		if a.kind == kFunc || (a.kind == kLimits && strings.HasPrefix(a.ml, "<mi")) {
 			b.WriteString("<mo>\u2061</mo>")
@@ -421,6 +428,9 @@ func (p *parser) scripted() (atom, bool) {
 		tags = [3]string{"munder", "mover", "munderover"}
 	}
 	k := base.kind
+	if k == kOp || k == kOpen {
+		k = kOrd // a scripted symbol is an operand, as ‖u‖² or )²
+	}
 	if k == kLimits || k == kFunc {
 		k = kFunc
 		if base.kind == kLimits && !strings.HasPrefix(base.ml, "<mi") {
@@ -602,10 +612,13 @@ func (p *parser) primary() (atom, bool) {
 	case '(', '[':
 		return atom{ml: `<mo stretchy="false">` + string(r) + "</mo>", kind: kOpen}, true
 	case ')', ']':
-		return atom{ml: `<mo stretchy="false">` + string(r) + "</mo>", kind: kOp}, true
+		// Closings end an operand: a sign after them is binary.
+		return atom{ml: `<mo stretchy="false">` + string(r) + "</mo>", kind: kOrd}, true
+	case '/':
+		return atom{ml: `<mo lspace="0" rspace="0">/</mo>`, kind: kOp}, true
 	case '|':
 		// As in TeX, a bar is an ordinary symbol: no operator spacing.
-		return atom{ml: `<mo stretchy="false" lspace="0" rspace="0">|</mo>`, kind: kOp}, true
+		return atom{ml: `<mo stretchy="false" lspace="0" rspace="0">|</mo>`, kind: kOrd}, true
 	case '\uFFFD':
 		return atom{ml: errorText("invalid character"), kind: kOrd}, true
 	}
@@ -637,10 +650,13 @@ func (p *parser) command() (atom, bool) {
 			k = kOpen
 		}
 		if s == "‖" || s == "|" {
-			return atom{ml: `<mo stretchy="false" lspace="0" rspace="0">` + s + "</mo>", kind: k}, true
+			return atom{ml: `<mo stretchy="false" lspace="0" rspace="0">` + s + "</mo>", kind: kOrd}, true
 		}
-		if k == kOpen || s == "}" || s == "⟩" || s == "⌋" || s == "⌉" {
+		if k == kOpen {
 			return atom{ml: `<mo stretchy="false">` + esc(s) + "</mo>", kind: k}, true
+		}
+		if s == "}" || s == "⟩" || s == "⌋" || s == "⌉" {
+			return atom{ml: `<mo stretchy="false">` + esc(s) + "</mo>", kind: kOrd}, true
 		}
 		return atom{ml: "<mo>" + esc(s) + "</mo>", kind: k}, true
 	}
@@ -693,7 +709,9 @@ func (p *parser) command() (atom, bool) {
 		if strings.HasSuffix(name, "l") {
 			k = kOpen
 		}
-		return atom{ml: `<mo stretchy="true" symmetric="true" minsize="` + size + `" maxsize="` + size + `">` + esc(d) + "</mo>", kind: k}, true
+		// The mrow makes the size hold also as the base of a script,
+		// where Chromium does not stretch an operator.
+		return atom{ml: `<mrow><mo stretchy="true" symmetric="true" minsize="` + size + `" maxsize="` + size + `">` + esc(d) + "</mo></mrow>", kind: k}, true
 	}
 	switch name {
 	case "frac", "dfrac", "tfrac", "cfrac":
@@ -731,6 +749,13 @@ func (p *parser) command() (atom, bool) {
 		return atom{ml: "<msqrt>" + arg + "</msqrt>", kind: kOrd}, true
 	case "text", "textrm", "textnormal", "mbox", "textup", "textit", "textbf":
 		t, ok := p.textArgument()
+		// Spaces at the ends of text would collapse; keep them as no-break spaces.
+		if trimmed := strings.TrimLeft(t, " "); len(trimmed) < len(t) {
+			t = strings.Repeat("\u00a0", len(t)-len(trimmed)) + trimmed
+		}
+		if trimmed := strings.TrimRight(t, " "); len(trimmed) < len(t) {
+			t = trimmed + strings.Repeat("\u00a0", len(t)-len(trimmed))
+		}
 		ml := "<mtext>" + esc(t) + "</mtext>"
 		switch name {
 		case "textit":

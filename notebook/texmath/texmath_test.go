@@ -37,7 +37,7 @@ func TestMathML(t *testing.T) {
 		{`a\le b\ge c\leq d\geq e\ne f\neq g\approx h`, false, []string{`<mo>≤</mo>`, `<mo>≥</mo>`, `<mo>≠</mo>`, `<mo>≈</mo>`}},
 		{`x\in\Omega\subset\mathbb{R}^2`, false, []string{`<mo>∈</mo>`, `<mo>⊂</mo>`, `<msup><mi>ℝ</mi><mn>2</mn></msup>`}},
 		{`f\colon x\mapsto y\to z`, false, []string{`<mo>↦</mo>`, `<mo>→</mo>`}},
-		{`\pm\mp\cdot\times`, false, []string{`<mo>±</mo><mo>∓</mo><mo>⋅</mo><mo>×</mo>`}},
+		{`a\pm b\mp c\cdot d\times e`, false, []string{`<mo>±</mo>`, `<mo>∓</mo>`, `<mo>⋅</mo>`, `<mo>×</mo>`}},
 		{`1,\ldots,n\cdots`, false, []string{`<mo>…</mo>`, `<mo>⋯</mo>`}},
 		{`\sum_{i=1}^n a_i`, true, []string{`<munderover><mo>∑</mo><mrow><mi>i</mi><mo>=</mo><mn>1</mn></mrow><mi>n</mi></munderover>`}},
 		{`\sum_{i=1}^n a_i`, false, []string{`<msubsup><mo>∑</mo><mrow><mi>i</mi><mo>=</mo><mn>1</mn></mrow><mi>n</mi></msubsup>`}},
@@ -51,14 +51,18 @@ func TestMathML(t *testing.T) {
 		{`\left( x \right)`, false, []string{`<mrow><mo fence="true" stretchy="true" symmetric="true">(</mo><mi>x</mi><mo fence="true" stretchy="true" symmetric="true">)</mo></mrow>`}},
 		{`\left\| x \right.`, false, []string{`<mrow><mo fence="true" stretchy="true" symmetric="true">‖</mo><mi>x</mi></mrow>`}},
 		{`\left\langle a \middle| b \right\rangle`, false, []string{`>⟨</mo>`, `<mo stretchy="true" symmetric="true">|</mo>`, `>⟩</mo>`}},
-		{`\big( \Bigr]`, false, []string{`<mo stretchy="true" symmetric="true" minsize="1.2em" maxsize="1.2em">(</mo>`, `minsize="1.8em" maxsize="1.8em">]</mo>`}},
+		{`\big( \Bigr]`, false, []string{`<mrow><mo stretchy="true" symmetric="true" minsize="1.2em" maxsize="1.2em">(</mo></mrow>`, `minsize="1.8em" maxsize="1.8em">]</mo>`}},
 		{`\|u\|`, false, []string{`<mo stretchy="false" lspace="0" rspace="0">‖</mo><mi>u</mi><mo stretchy="false" lspace="0" rspace="0">‖</mo>`}},
 		{`|x|`, false, []string{`<mo stretchy="false" lspace="0" rspace="0">|</mo><mi>x</mi><mo stretchy="false" lspace="0" rspace="0">|</mo>`}},
 		{`\mathrm{d}x`, false, []string{`<mi mathvariant="normal">d</mi><mi>x</mi>`}},
 		{`\mathrm{div}`, false, []string{`<mi>div</mi>`}},
 		{`\mathbf{u}`, false, []string{`<mi>𝐮</mi>`}},
 		{`\mathcal{T}\mathcal{E}`, false, []string{`<mi>𝒯</mi><mi>ℰ</mi>`}},
-		{`\text{if } x`, false, []string{`<mtext>if </mtext><mi>x</mi>`}},
+		{`\text{if } x`, false, []string{"<mtext>if\u00a0</mtext><mi>x</mi>"}},
+		{`a=-b+(-c)`, false, []string{`<mo>=</mo><mo form="prefix">−</mo><mi>b</mi><mo>+</mo><mo stretchy="false">(</mo><mo form="prefix">−</mo>`}},
+		{`-x`, false, []string{head + `<mo form="prefix">−</mo>`}},
+		{`a/b`, false, []string{`<mi>a</mi><mo lspace="0" rspace="0">/</mo><mi>b</mi>`}},
+		{`\|u\|^2+(a)-|b|-c^2-\sum_i -1`, false, []string{`</msup><mo>+</mo>`, `)</mo><mo>−</mo>`, `|</mo><mo>−</mo>`, `</msup><mo>−</mo>`, `</msub><mo form="prefix">−</mo>`}},
 		{`\operatorname{osc}(f)`, false, []string{`<mi>osc</mi><mo>` + "\u2061" + `</mo>`}},
 		{`\hat u\bar v\tilde w\dot x\overline{ab}`, false, []string{
 			`<mover accent="true"><mi>u</mi><mo stretchy="false">^</mo></mover>`,
@@ -118,7 +122,7 @@ var allowedAttrs = map[string]bool{
 	"xmlns": true, "display": true, "mathvariant": true, "stretchy": true,
 	"symmetric": true, "fence": true, "minsize": true, "maxsize": true, "width": true,
 	"accent": true, "accentunder": true, "displaystyle": true, "columnalign": true,
-	"style": true, "class": true, "linethickness": true, "lspace": true, "rspace": true,
+	"style": true, "class": true, "linethickness": true, "lspace": true, "rspace": true, "form": true,
 }
 
 // wellFormed parses s as XML and checks it uses only the allowed
