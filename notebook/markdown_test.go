@@ -67,11 +67,14 @@ func TestMarkdownLinksAndMath(t *testing.T) {
 		{"[rel](../secret.txt)", "<p>rel</p>", "<a"},
 		{"<mailto:a@b.c>", "a@b.c", "<a"},
 		{"![a plot](https://x.example/p.png)", `<span class="image-omitted">[image: a plot]</span>`, "<img"},
-		{"energy $J(u) < 0$ here", `<code class="math">J(u) &lt; 0</code>`, ""},
+		{"energy $J(u) < 0$ here", `<p>energy <math xmlns="http://www.w3.org/1998/Math/MathML"><mi>J</mi>`, "<code"},
+		{"$u < 0$", `<mo>&lt;</mo><mn>0</mn></math>`, ""},
 		{"prices $5 and $10", "prices $5 and $10", "math"},
-		{`a \$ sign $x$`, `a $ sign <code class="math">x</code>`, ""},
-		{"$$\\int_\\Omega f$$", `<code class="math math-block">\int_\Omega f</code>`, ""},
-		{"text\n$$\na^2 + b^2\n$$\nmore", `<div class="math-display"><code class="math math-block">a^2 + b^2</code></div>`, ""},
+		{`a \$ sign $x$`, `a $ sign <math xmlns="http://www.w3.org/1998/Math/MathML"><mi>x</mi></math>`, ""},
+		{"$$\\int_\\Omega f$$", `<div class="math-display"><math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><msub><mo>∫</mo>`, ""},
+		{"inline $$x$$ display", `inline <math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><mi>x</mi></math> display`, ""},
+		{"text\n$$\na^2 + b^2\n$$\nmore", `<p>text</p>
+<div class="math-display"><math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><msup><mi>a</mi><mn>2</mn></msup><mo>+</mo>`, ""},
 	}
 	for _, tt := range tests {
 		got := Markdown(tt.src)
