@@ -379,6 +379,26 @@ func (f *Formula) Eval2(p, grad, hess []float64) float64 {
 				}
 			}
 			top -= w
+		case opMul:
+			// The product rule: the general binary update with fa = b, fb = a,
+			// fab = 1 and faa = fbb = 0, without the vanishing terms.
+			a := J[top-w : top]
+			b := J[top : top+w]
+			av, bv := a[0], b[0]
+			ga, gb := a[1:1+n], b[1:1+n]
+			ha, hb := a[1+n:], b[1+n:]
+			k := 0
+			for i := 0; i < n; i++ {
+				for j := i; j < n; j++ {
+					ha[k] = mz(bv, ha[k]) + mz(av, hb[k]) + mz2(1, ga[i], gb[j]) + mz2(1, gb[i], ga[j])
+					k++
+				}
+			}
+			for i := range ga {
+				ga[i] = mz(bv, ga[i]) + mz(av, gb[i])
+			}
+			a[0] = av * bv
+			top -= w
 		case opMin, opMax:
 			a := J[top-w : top]
 			b := J[top : top+w]
@@ -450,9 +470,11 @@ func mz(c, x float64) float64 {
 	return c * x
 }
 
-// mz2 returns c·x·y with the convention of mz.
+// mz2 returns c·x·y with the convention of mz; a zero coefficient is exact
+// too, since the chain rules use it for terms that vanish identically (the
+// second derivatives of a product in one factor).
 func mz2(c, x, y float64) float64 {
-	if x == 0 || y == 0 {
+	if c == 0 || x == 0 || y == 0 {
 		return 0
 	}
 	return c * x * y
