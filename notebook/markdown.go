@@ -154,6 +154,7 @@ var kindMathBlock = ast.NewNodeKind("MathBlock")
 
 type mathBlock struct {
 	ast.BaseBlock
+	closed bool // the closing $$ has been read
 }
 
 func (n *mathBlock) Kind() ast.NodeKind         { return kindMathBlock }
@@ -236,6 +237,7 @@ func (mathBlockParser) Open(parent ast.Node, reader text.Reader, pc parser.Conte
 		}
 		n.Lines().Append(text.NewSegment(start, start+len(bytes.TrimRight(line[pos+2:], " \t\r\n"))-2))
 		reader.AdvanceToEOL()
+		n.closed = true
 		return n, parser.Close
 	}
 	if len(body) != 0 {
@@ -246,6 +248,9 @@ func (mathBlockParser) Open(parent ast.Node, reader text.Reader, pc parser.Conte
 }
 
 func (mathBlockParser) Continue(node ast.Node, reader text.Reader, pc parser.Context) parser.State {
+	if node.(*mathBlock).closed {
+		return parser.Close
+	}
 	line, seg := reader.PeekLine()
 	t := bytes.TrimRight(line, " \t\r\n")
 	if bytes.HasSuffix(t, []byte("$$")) {

@@ -72,6 +72,8 @@ func TestMarkdownLinksAndMath(t *testing.T) {
 		{"prices $5 and $10", "prices $5 and $10", "math"},
 		{`a \$ sign $x$`, `a $ sign <math xmlns="http://www.w3.org/1998/Math/MathML"><mi>x</mi></math>`, ""},
 		{"$$\\int_\\Omega f$$", `<div class="math-display"><math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><msub><mo>∫</mo>`, ""},
+		{"$$x$$\n\nafter $y$", `</math></div>
+<p>after <math xmlns="http://www.w3.org/1998/Math/MathML"><mi>y</mi></math></p>`, ""},
 		{"inline $$x$$ display", `inline <math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><mi>x</mi></math> display`, ""},
 		{"text\n$$\na^2 + b^2\n$$\nmore", `<p>text</p>
 <div class="math-display"><math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><msup><mi>a</mi><mn>2</mn></msup><mo>+</mo>`, ""},
