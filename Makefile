@@ -27,3 +27,5 @@ bench:
 # Long fuzzing runs; make test only replays the seed corpus.
 fuzz:
 	$(GO) test ./expr -run '^$$' -fuzz FuzzParseEval -fuzztime 60s
+	$(GO) test ./notebook -run '^$$' -fuzz FuzzLoad -fuzztime 60s
+	$(GO) test ./notebook/texmath -run '^$$' -fuzz . -fuzztime 60s
