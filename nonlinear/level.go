@@ -1,0 +1,203 @@
+package nonlinear
+
+import (
+	"fmt"
+	"math"
+
+	"gapbook/convex"
+	"gapbook/fem"
+	"gapbook/mesh"
+)
+
+// level holds the discrete problem on one mesh of the hierarchy and the
+// scratch space of its Newton steps, so that a step allocates nothing but
+// the PCG vectors.
+type level struct {
+	index int
+	s     *fem.P1
+	mg    *fem.Multigrid
+	hess  *fem.CSR
+	mass  *fem.CSR // free-node mass matrix, nil without a mass term
+	c     float64  // mass coefficient
+	ref   []float64
+	bd    []float64 // Dirichlet values at the nodes (boundary entries used)
+	load  []float64 // nodal ∫ f φ_i
+	grad  [][2]float64
+	flux  [][2]float64
+	coef  [][3]float64
+	nodal []float64
+	trial []float64
+	g, d  []float64
+	gt    []float64
+	bnorm float64 // ‖b‖ on the free nodes
+}
+
+func (sv *solver) newLevel(m *mesh.Mesh, index int) (*level, error) {
+	s, err := fem.NewP1(m)
+	if err != nil {
+		return nil, fmt.Errorf("newton: %w", err)
+	}
+	mg, err := fem.NewMultigrid(s)
+	if err != nil {
+		return nil, fmt.Errorf("newton: %w", err)
+	}
+	nn, nc, nf := s.NumNodes(), m.NumCells(), s.NumFree()
+	lv := &level{
+		index: index, s: s, mg: mg, hess: s.NewMatrix(),
+		bd: make([]float64, nn), load: make([]float64, nn),
+		grad: make([][2]float64, nc), flux: make([][2]float64, nc), coef: make([][3]float64, nc),
+		nodal: make([]float64, nn), trial: make([]float64, nn),
+		g: make([]float64, nf), d: make([]float64, nf), gt: make([]float64, nf),
+	}
+	if sv.p.Dirichlet != nil {
+		s.Interpolate(sv.p.Dirichlet, lv.bd)
+	}
+	if sv.p.F != nil {
+		s.Load(sv.p.F, s.Rule(sv.o.LoadDegree), lv.load)
+	}
+	for i, n := range s.FreeNodes {
+		lv.g[i] = lv.load[n]
+	}
+	lv.bnorm = math.Sqrt(dot(lv.g, lv.g))
+	for i, v := range lv.load {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			p := m.Nodes[i]
+			return nil, fmt.Errorf("newton: the load ∫ f φ is %g at node (%g, %g); f must be finite at the quadrature points", v, p.X, p.Y)
+		}
+	}
+	if sv.p.Mass > 0 {
+		lv.c, lv.ref = sv.p.Mass, sv.p.Ref
+		lv.mass = s.NewMatrix()
+		if err := s.Mass(lv.mass); err != nil {
+			return nil, fmt.Errorf("newton: %w", err)
+		}
+	}
+	return lv, nil
+}
+
+// setBoundary puts the Dirichlet values into the boundary entries of w and
+// of the trial vector.
+func (lv *level) setBoundary(w []float64) {
+	for i := range w {
+		if lv.s.Free[i] < 0 {
+			w[i] = lv.bd[i]
+			lv.trial[i] = lv.bd[i]
+		}
+	}
+}
+
+// massDen is the denominator of the element mass matrix |T|(1 + δ_ij)/den.
+func (lv *level) massDen() float64 {
+	if lv.s.Mesh.Dim == 1 {
+		return 6
+	}
+	return 12
+}
+
+// energy returns J(w) and its scale ∫ G(∇w) + |∫ f w| + mass term, the
+// denominator of relative decrements. It also leaves ∇w in lv.grad.
+func (lv *level) energy(G convex.Potential, w []float64) (J, scale float64) {
+	lv.s.Gradient(w, lv.grad)
+	e := 0.0
+	for k, g := range lv.grad {
+		e += lv.s.Area[k] * convex.Value(G, g)
+	}
+	fw := dot(lv.load, w)
+	m := 0.0
+	if lv.c > 0 {
+		nv := lv.s.Mesh.Dim + 1
+		for k, c := range lv.s.Mesh.Cells {
+			// dᵀM_T d = |T|/den (Σ d_a² + (Σ d_a)²).
+			sq, sum := 0.0, 0.0
+			for a := range nv {
+				d := w[c[a]] - lv.ref[c[a]]
+				sq += d * d
+				sum += d
+			}
+			m += lv.s.Area[k] / lv.massDen() * (sq + sum*sum)
+		}
+		m *= lv.c / 2
+	}
+	return e - fw + m, e + math.Abs(fw) + m + math.SmallestNonzeroFloat64
+}
+
+// residual stores the gradient of J at w on the free nodes in g and returns
+// its norm and the reference norm ‖b‖ + ‖F(w)‖ of relative residuals.
+func (lv *level) residual(G convex.Potential, w, g []float64) (norm, ref float64) {
+	lv.s.Gradient(w, lv.grad)
+	for k, x := range lv.grad {
+		lv.flux[k] = convex.Flux(G, x)
+	}
+	clear(lv.nodal)
+	lv.s.FluxLoad(lv.flux, lv.nodal)
+	fnorm := 0.0
+	for _, n := range lv.s.FreeNodes {
+		fnorm += lv.nodal[n] * lv.nodal[n]
+	}
+	if lv.c > 0 {
+		nv := lv.s.Mesh.Dim + 1
+		den := lv.massDen()
+		for k, c := range lv.s.Mesh.Cells {
+			// (M_T d)_a = |T|/den (d_a + Σ_b d_b).
+			sum := 0.0
+			for a := range nv {
+				sum += w[c[a]] - lv.ref[c[a]]
+			}
+			f := lv.c * lv.s.Area[k] / den
+			for a := range nv {
+				lv.nodal[c[a]] += f * (w[c[a]] - lv.ref[c[a]] + sum)
+			}
+		}
+	}
+	for i, n := range lv.s.FreeNodes {
+		g[i] = lv.nodal[n] - lv.load[n]
+	}
+	norm = math.Sqrt(dot(g, g))
+	return norm, lv.bnorm + math.Sqrt(fnorm) + math.SmallestNonzeroFloat64
+}
+
+// hessian assembles D²J at the gradients in lv.grad (left by residual) with
+// the Hessian of G frozen below radius reg, and updates the multigrid.
+func (lv *level) hessian(G convex.Potential, reg float64) error {
+	for k, x := range lv.grad {
+		lv.coef[k] = convex.Hessian(G, x, reg)
+		if h := lv.coef[k]; math.IsInf(h[0], 0) || math.IsInf(h[2], 0) || math.IsNaN(h[0]+h[1]+h[2]) {
+			return fmt.Errorf("newton: the Hessian of %v is %v at gradient %v; the potential needs a finite g'' away from 0", G, h, x)
+		}
+	}
+	if err := lv.s.Stiffness(lv.coef, lv.hess); err != nil {
+		return fmt.Errorf("newton: %w", err)
+	}
+	if lv.mass != nil {
+		for i, v := range lv.mass.Val {
+			lv.hess.Val[i] += lv.c * v
+		}
+	}
+	if err := lv.mg.Update(lv.hess); err != nil {
+		return fmt.Errorf("newton: %w", err)
+	}
+	return nil
+}
+
+// smoothed is the potential g_ε(t) = g(√(ε² + t²)) − g(ε) used for
+// continuation: for the power potential it is convex.RegPower. It is convex
+// and increasing for convex increasing g, with g_ε”(0) = g'(ε)/ε finite
+// and positive. Only Profile is used by the solver.
+type smoothed struct {
+	g   convex.Potential
+	eps float64
+}
+
+func (p smoothed) Profile(t float64) (g, g1, g2 float64) {
+	s := math.Sqrt(p.eps*p.eps + t*t)
+	v, d1, d2 := p.g.Profile(s)
+	v0, _, _ := p.g.Profile(p.eps)
+	// s' = t/s, s'' = ε²/s³.
+	return v - v0, d1 * t / s, d2*(t/s)*(t/s) + d1*p.eps*p.eps/(s*s*s)
+}
+
+func (p smoothed) Conjugate(float64) (float64, float64) { return math.NaN(), math.NaN() }
+func (p smoothed) Growth() float64                      { return p.g.Growth() }
+func (p smoothed) Modulus() convex.Modulus              { return convex.Modulus{Label: convex.Estimate} }
+func (p smoothed) DualModulus() convex.Modulus          { return convex.Modulus{Label: convex.Estimate} }
+func (p smoothed) String() string                       { return fmt.Sprintf("%v smoothed at ε = %g", p.g, p.eps) }
