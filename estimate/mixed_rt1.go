@@ -1,0 +1,96 @@
+package estimate
+
+import (
+	"slices"
+
+	"gapbook/fem"
+)
+
+// addBubbles adds to cell k the RT1 fields with zero normal trace
+// b_i = λ_i(λ_j R∇λ_l − λ_l R∇λ_j), (i, j, l) cyclic, whose divergence is
+// c(3λ_i − 1) with c = ∇λ_j·R∇λ_l (the same for every cyclic pair since
+// Σ∇λ = 0), weighted so that the divergence gains the mean-free part of
+// −Π1 f: β_i = t_i/(3c) for the target Σ t_i λ_i, Σ t_i = 0.
+func (e *Equilibrated) addBubbles(k int, g *[3][2]float64) {
+	p := &e.proj[k]
+	mean := (p[0] + p[1] + p[2]) / 3
+	rp := [3][2]float64{perp(g[0]), perp(g[1]), perp(g[2])}
+	c := g[1][0]*rp[2][0] + g[1][1]*rp[2][1]
+	co := &e.coef[k]
+	for i := range 3 {
+		j, l := (i+1)%3, (i+2)%3
+		beta := -(p[i] - mean) / (3 * c)
+		sj, sl := pairSlot(i, j), pairSlot(i, l)
+		co[sj][0] += beta * rp[l][0]
+		co[sj][1] += beta * rp[l][1]
+		co[sl][0] -= beta * rp[j][0]
+		co[sl][1] -= beta * rp[j][1]
+	}
+}
+
+// cellMatrix returns a zero CSR matrix of n rows whose pattern couples the
+// free local dofs of every cell, and the positions of the local entries.
+func cellMatrix(n int, dof [][6]int32) (*fem.CSR, [][36]int32) {
+	rows := make([][]int32, n)
+	for _, d := range dof {
+		for _, a := range d {
+			if a < 0 {
+				continue
+			}
+			for _, b := range d {
+				if b >= 0 {
+					rows[a] = append(rows[a], b)
+				}
+			}
+		}
+	}
+	a := &fem.CSR{Rows: n, Cols: n, RowPtr: make([]int32, n+1)}
+	for i, r := range rows {
+		slices.Sort(r)
+		r = slices.Compact(r)
+		a.Col = append(a.Col, r...)
+		a.RowPtr[i+1] = int32(len(a.Col))
+		rows[i] = nil
+	}
+	a.Val = make([]float64, len(a.Col))
+	pos := make([][36]int32, len(dof))
+	for k, d := range dof {
+		for i, x := range d {
+			for j, y := range d {
+				pos[k][6*i+j] = -1
+				if x >= 0 && y >= 0 {
+					pos[k][6*i+j] = int32(a.Find(int(x), int(y)))
+				}
+			}
+		}
+	}
+	return a, pos
+}
+
+// blockPre preconditions the hierarchical P2 stream system by the P1
+// multigrid on the P1 block and Jacobi on the edge bubbles (the two-level
+// splitting P1 ⊕ bubbles is stable uniformly in h; Bank, Dupont &
+// Yserentant, Numer. Math. 52 (1988), from memory).
+type blockPre struct {
+	mg   *fem.Multigrid
+	n1   int
+	diag []float64
+}
+
+func (p blockPre) Apply(dst, r []float64) {
+	p.mg.Apply(dst[:p.n1], r[:p.n1])
+	for i := p.n1; i < len(r); i++ {
+		dst[i] = r[i] / p.diag[i]
+	}
+}
+
+// pre returns the preconditioner of the current stream matrix.
+func (st *stream) pre() fem.Preconditioner {
+	if st.order == 0 {
+		return st.mg
+	}
+	for i := st.n1; i < st.n; i++ {
+		st.diag[i] = st.a.At(i, i)
+	}
+	return blockPre{mg: st.mg, n1: st.n1, diag: st.diag}
+}
