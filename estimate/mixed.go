@@ -309,7 +309,7 @@ type stream struct {
 	n1, n int
 	a, pa *fem.CSR // system matrix; P1 block for multigrid
 	mg    *fem.Multigrid
-	dof   [][6]int32 // free dofs of each cell (−1: pinned)
+	dof   [][6]int32  // free dofs of each cell (−1: pinned)
 	pos   [][36]int32 // position in a.Val of local entry (a, b), k = 1
 	diag  []float64   // diagonal of a, for Jacobi on the bubbles
 	rule  fem.Rule
