@@ -166,7 +166,6 @@ func TestDerivativeConventions(t *testing.T) {
 		{"3 - x/2", 1, 0, 2.5, -0.5, 0, 0, 0, 0, "linear"},
 		{"10/x", 2, 0, 5, -2.5, 0, 2.5, 0, 0, "-10/x², 20/x³"},
 	}
-	same := func(a, b float64) bool { return a == b || (math.IsNaN(a) && math.IsNaN(b)) }
 	for _, tc := range tests {
 		f := MustParse(tc.src, "x", "y")
 		g, h := make([]float64, 2), make([]float64, 4)

@@ -20,7 +20,7 @@ import (
 // instr is one step of the compiled program.
 type instr struct {
 	op  opcode
-	idx int32   // variable index for opVar
+	idx int32   // variable index for opVar, register for opStore and opLoad
 	k   float64 // constant for opConst, immediate for the *K operations
 }
 

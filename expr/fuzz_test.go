@@ -34,22 +34,36 @@ func FuzzParseEval(f *testing.F) {
 		grad, hess := make([]float64, 3), make([]float64, 9)
 		v := g.Eval(p)
 		v2 := g.Eval2(p, grad, hess)
-		if v != v2 && !(math.IsNaN(v) && math.IsNaN(v2)) {
+		if !same(v, v2) {
 			t.Fatalf("%q at %v: Eval %v, Eval2 %v", src, p, v, v2)
 		}
 		for i := range 3 {
 			for j := range 3 {
 				a, b := hess[3*i+j], hess[3*j+i]
-				if a != b && !(math.IsNaN(a) && math.IsNaN(b)) {
+				if !same(a, b) {
 					t.Fatalf("%q: Hessian not symmetric", src)
 				}
 			}
 		}
+		// Derivatives in a variable the formula does not use are exact zeros.
+		for i, name := range []string{"x", "y", "t"} {
+			if g.Uses(name) {
+				continue
+			}
+			if grad[i] != 0 || hess[3*i] != 0 || hess[3*i+1] != 0 || hess[3*i+2] != 0 {
+				t.Fatalf("%q at %v: nonzero derivative in unused %s: %v %v", src, p, name, grad, hess)
+			}
+		}
 		if s, err := Parse(src, "t"); err == nil {
-			sv, _, _ := s.Scalar(tt)
-			if ev := s.Eval([]float64{tt}); sv != ev && !(math.IsNaN(sv) && math.IsNaN(ev)) {
-				t.Fatalf("%q at t = %v: Scalar %v, Eval %v", src, tt, sv, ev)
+			sv, s1, s2 := s.Scalar(tt)
+			g1, h1 := make([]float64, 1), make([]float64, 1)
+			ev := s.Clone().Eval2([]float64{tt}, g1, h1)
+			if !same(sv, ev) || !same(s1, g1[0]) || !same(s2, h1[0]) || !same(sv, s.Eval([]float64{tt})) {
+				t.Fatalf("%q at t = %v: Scalar %v %v %v, Eval2 %v %v %v", src, tt, sv, s1, s2, ev, g1[0], h1[0])
 			}
 		}
 	})
 }
+
+// same reports equality, counting two NaNs as equal.
+func same(a, b float64) bool { return a == b || (math.IsNaN(a) && math.IsNaN(b)) }
