@@ -3,11 +3,24 @@ GO       ?= go
 WASMPATH := $(shell $(GO) env GOROOT)/lib/wasm
 # Numerical packages: tested natively and compiled to WebAssembly under node.
 NUMERIC  := $(foreach d,expr convex mesh fem nonlinear estimate,$(if $(wildcard $(d)/*.go),./$(d)/...))
+# Raw benchmark outputs for the nonlinear table.
+BENCHOUT := $(or $(TMPDIR),/tmp)
 
-.PHONY: run test test-native test-wasm vet bench fuzz
+.PHONY: run wasm build test test-native test-wasm vet bench fuzz
 
-run:
-	$(GO) run ./cmd/gapbook run examples/default.gapbook
+# The page's engine: Go compiled to WebAssembly, with the runtime support
+# script of the same Go. Both are git-ignored and embedded by `build`.
+wasm:
+	GOOS=js GOARCH=wasm $(GO) build -trimpath -ldflags='-s -w' -o web/static/gapbook.wasm ./wasm
+	cp "$(WASMPATH)/wasm_exec.js" web/static/wasm_exec.js
+
+build: wasm
+	$(GO) build -trimpath -o bin/gapbook ./cmd/gapbook
+
+# Serve the default study in the browser (ADDR=127.0.0.1:PORT to change).
+ADDR ?= 127.0.0.1:8787
+run: build
+	bin/gapbook serve --addr $(ADDR) examples/default.gapbook
 
 test: vet test-native test-wasm
 
@@ -22,7 +35,10 @@ test-wasm:
 	PATH="$$PATH:$(WASMPATH)" GOOS=js GOARCH=wasm $(GO) test -count=1 $(NUMERIC)
 
 bench:
-	$(GO) test -run '^$$' -bench . -benchmem $(NUMERIC)
+	$(GO) test -run '^$$' -bench . -benchmem $(filter-out ./nonlinear/...,$(NUMERIC))
+	$(GO) test -run '^$$' -bench EllipticSolve -timeout 60m ./nonlinear/ | tee $(BENCHOUT)/gapbook-bench-native.txt
+	PATH="$$PATH:$(WASMPATH)" GOOS=js GOARCH=wasm $(GO) test -run '^$$' -bench EllipticSolve -timeout 60m ./nonlinear/ | tee $(BENCHOUT)/gapbook-bench-wasm.txt
+	$(GO) run ./nonlinear/benchtable $(BENCHOUT)/gapbook-bench-native.txt $(BENCHOUT)/gapbook-bench-wasm.txt
 
 # Long fuzzing runs; make test only replays the seed corpus.
 fuzz:

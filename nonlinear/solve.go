@@ -398,7 +398,8 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 				J, scale = Jt, st
 				break
 			}
-			if s == 1 && Jt <= J+1e-14*scale {
+			// Rounding of the sum J over the cells: about 1e-16·√cells·scale.
+			if s == 1 && Jt <= J+(1e-14+1e-15*math.Sqrt(float64(len(lv.grad))))*scale {
 				if gt, _ := lv.residual(G, lv.trial, lv.gt); gt <= gnorm/2 {
 					J, scale = Jt, st
 					break
@@ -422,6 +423,11 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 		}
 		step.Energy, step.StepLength = J, s
 		sv.record(lv, step)
+		if s < 1 && step.Decrement <= tol {
+			// The energy is converged and only a damped step lowered it:
+			// J can no longer see the residual in this precision.
+			return true, nil
+		}
 	}
 }
 
