@@ -56,7 +56,7 @@ func laplaceSolve(uD func(x, y float64) float64) SolveFunc {
 type crFlux struct{ g [][2]float64 }
 
 func (c *crFlux) At(k int, _ [3]float64) ([2]float64, float64) { return c.g[k], 0 }
-func (c *crFlux) Degree() int                                    { return 0 }
+func (c *crFlux) Degree() int                                  { return 0 }
 
 func crBuilder(uD func(x, y float64) float64) FluxFunc {
 	return func(ctx context.Context, s *fem.P1, _ []float64) (Flux, error) {
