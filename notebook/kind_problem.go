@@ -112,9 +112,11 @@ func (problemKind) Inputs() []Input {
 // ProblemSpec is the object a problem cell hands on (name "problem"): a
 // checked problem with its potential and compiled formulas.
 type ProblemSpec struct {
-	Cell    string
-	Dim     int
-	Domain  string
+	Cell   string
+	Dim    int
+	Domain string
+	// Family is the potential family (one of the potential choices).
+	Family  string
 	Summary string
 	G       convex.Potential
 	// Alpha is the growth exponent of G.
@@ -311,7 +313,8 @@ func buildProblem(id string, in Values) (*ProblemSpec, error) {
 	alpha := in.Number("alpha")
 	var err error
 	field := "alpha"
-	switch in.Text("potential") {
+	p.Family = in.Text("potential")
+	switch p.Family {
 	case potPower:
 		p.G, err = convex.Power(alpha)
 	case potQuad:

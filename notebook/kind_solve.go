@@ -63,12 +63,17 @@ func (solveKind) Evaluate(c *Context, in Values) (*Results, error) {
 // solveOn runs Newton on m for p and wraps the answer; a failed solve
 // names the tolerance input so that the user knows what to change.
 func solveOn(c *Context, p *ProblemSpec, m *mesh.Mesh, tol float64, maxNewton int) (*Solution, error) {
+	return solveWith(c, p, m, p.Dirichlet(), tol, maxNewton)
+}
+
+// solveWith is solveOn with other boundary data.
+func solveWith(c *Context, p *ProblemSpec, m *mesh.Mesh, uD func(x, y float64) float64, tol float64, maxNewton int) (*Solution, error) {
 	s, err := fem.NewP1(m)
 	if err != nil {
 		return nil, err
 	}
 	prog := 0
-	r, err := nonlinear.Solve(c.Context(), m, nonlinear.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet()},
+	r, err := nonlinear.Solve(c.Context(), m, nonlinear.Problem{G: p.G, F: p.Source(), Dirichlet: uD},
 		nonlinear.Options{Tol: tol, MaxIter: maxNewton, Progress: func(st nonlinear.Step) {
 			prog++
 			c.Progress(1-1/float64(prog+1), fmt.Sprintf("Newton step %d, level %d, decrement %.1e", prog, st.Level, st.Decrement))

@@ -1,0 +1,319 @@
+package notebook
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"gapbook/convex"
+	"gapbook/estimate"
+	"gapbook/fem"
+	"gapbook/mesh"
+)
+
+func init() { Register(boundKind{}) }
+
+// boundKind reconstructs a flux for a discrete solution and reports the
+// guaranteed two-sided bounds of MATH.md §4.
+type boundKind struct{}
+
+// Flux strategies offered by the bound kind.
+const (
+	fluxEquilibrated = "equilibrated"
+	fluxAveraged     = "averaged"
+)
+
+// Friedrichs constant choices of the bound kind.
+const (
+	constBest  = "best guaranteed"
+	constWidth = "width bound"
+)
+
+func (boundKind) Name() string { return "bound" }
+func (boundKind) Doc() string {
+	return "Guaranteed bounds of the error of a discrete solution: the error measure μ(v) = J(v) − J(u) from above and below, the flux error, the gradient norm, the energy J(u) and flow rate as intervals, and where the error sits."
+}
+func (boundKind) Inputs() []Input {
+	return []Input{
+		{Name: "solution", Type: Ref, RefKinds: []string{"solve"}, Doc: "id of the solve cell whose solution v is bounded"},
+		{Name: "flux", Type: Choice, Default: fluxEquilibrated, Choices: []string{fluxEquilibrated, fluxAveraged},
+			Doc: "the flux y* of the bounds: equilibrated (div y* balances the projected source on every cell; sharp, converging bounds) or averaged (nodal averages of ∂G(∇v); cheap, but its bounds do not converge)"},
+		{Name: "order", Type: Integer, Default: 1, Low: AtLeast(0), High: AtMost(1),
+			Doc: "Raviart–Thomas order k of the equilibrated flux: 0 (cell means of f) or 1 (f projected onto linear functions per cell, sharper for smooth f)"},
+		{Name: "newton", Type: Integer, Default: 3, Low: AtLeast(0), High: AtMost(50),
+			Doc: "Newton steps that bring the equilibrated flux closer to the exact one (sharper bounds, never less valid)"},
+		{Name: "constant", Type: Choice, Default: constBest, Choices: []string{constBest, constWidth},
+			Doc: "Friedrichs constant of the residual term: the best guaranteed one (for α = 2 the Crouzeix–Raviart eigenvalue bound when smaller than the width bound) or the width bound alone"},
+		{Name: "degree", Type: Integer, Default: estimate.DefaultDegree, Low: AtLeast(2), High: AtMost(8),
+			Doc: "exactness degree of the quadrature rule of the cell integrals (the guarantee holds up to this quadrature)"},
+		{Name: "minorant", Type: Bool, Default: true,
+			Doc: "solve once more on the uniformly refined mesh: its energy gives the lower bound μ(v) ≥ J(v) − J(w) and the upper end of the energy interval"},
+	}
+}
+
+func convexLabel(l convex.Label) Label {
+	switch l {
+	case convex.Guaranteed:
+		return Guaranteed
+	case convex.Reference:
+		return Reference
+	}
+	return Estimate
+}
+
+// Bounds is the object a bound cell hands on (name "bounds").
+type Bounds struct {
+	Solution *Solution
+	Result   *estimate.Result
+	Flux     estimate.Flux
+}
+
+func (boundKind) Evaluate(c *Context, in Values) (*Results, error) {
+	sol, ok := c.Object(in.Text("solution"), "solution").(*Solution)
+	if !ok {
+		return nil, FieldErr("solution", "cell %s is not a solve cell", in.Text("solution"))
+	}
+	st := boundSettings{flux: in.Text("flux"), order: in.Int("order"), newton: in.Int("newton"),
+		constant: in.Text("constant"), degree: in.Int("degree")}
+	b, err := computeBound(c, sol, st)
+	if err != nil {
+		return nil, err
+	}
+	res := boundResults(b, st)
+	if in.Bool("minorant") {
+		c.Progress(0.7, "solve on the refined mesh for the minorant")
+		if err := addMinorant(c, b, st, res); err != nil {
+			return nil, err
+		}
+	}
+	return res, nil
+}
+
+// boundSettings are the inputs of a bound (also used by adapt cells).
+type boundSettings struct {
+	flux          string
+	order, newton int
+	constant      string
+	degree        int
+}
+
+// computeBound reconstructs the flux and evaluates the bounds for sol.
+func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) {
+	p := sol.Problem
+	s := sol.Space
+	var y estimate.Flux
+	var err error
+	c.Progress(0.1, "flux reconstruction")
+	if st.flux == fluxAveraged {
+		y, err = estimate.NewAveraged(s, p.G, sol.V)
+	} else {
+		y, err = estimate.Equilibrate(c.Context(), s, p.G, sol.V, estimate.FuncSource(sol.Mesh, p.Source()),
+			estimate.EquilibrateOptions{Order: st.order, Newton: st.newton, Degree: st.degree})
+	}
+	if err != nil {
+		if e := c.Err(); e != nil {
+			return nil, e
+		}
+		return nil, FieldErr("flux", "%v", err)
+	}
+	c.Progress(0.4, "Friedrichs constant")
+	cf, err := friedrichs(c, sol.Mesh, p.Alpha, st.constant)
+	if err != nil {
+		return nil, err
+	}
+	opt := estimate.Options{Degree: st.degree, Friedrichs: cf}
+	if len(p.G.Modulus().Bounds) == 0 {
+		// A formula potential has no proven modulus: refuse rather than
+		// invent one, and say what would work.
+		return nil, FieldErr("solution", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Cell)
+	}
+	c.Progress(0.5, "bounds")
+	r, err := estimate.Estimate(s, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet()}, sol.V, y, opt)
+	if err != nil {
+		return nil, FieldErr("solution", "%v", err)
+	}
+	return &Bounds{Solution: sol, Result: r, Flux: y}, nil
+}
+
+func friedrichs(c *Context, m *mesh.Mesh, alpha float64, which string) (estimate.Constant, error) {
+	var cf estimate.Constant
+	var err error
+	if which == constWidth {
+		cf, err = estimate.WidthConstant(m, alpha)
+	} else {
+		cf, err = estimate.FriedrichsConstant(c.Context(), m, alpha)
+	}
+	if err != nil {
+		if e := c.Err(); e != nil {
+			return cf, e
+		}
+		return cf, FieldErr("constant", "%v", err)
+	}
+	return cf, nil
+}
+
+// boundResults lists the bounds with their labels, the reference errors
+// when the exact solution is known, the assumptions and the indicators.
+func boundResults(b *Bounds, st boundSettings) *Results {
+	r := b.Result
+	sol := b.Solution
+	p := sol.Problem
+	lab := convexLabel(r.Label)
+	res := &Results{Objects: map[string]any{"bounds": b}}
+	add := func(name string, v float64, l Label, unit string) {
+		res.Scalars = append(res.Scalars, Scalar{Name: name, Value: v, Label: l, Unit: unit})
+	}
+	add("majorant", r.Majorant.Value, lab, "μ(v) = J(v) − J(u) ≤ majorant")
+	add("dual_majorant", r.Dual.Value, lab, "μ*(y*) = ∫ D_G(∇u, y*) ≤ dual_majorant")
+	add("norm_bound", r.Norm.Value, lab, fmt.Sprintf("‖∇(u − v)‖ in L^%g ≤ norm_bound", p.Alpha))
+	add("energy_low", r.Energy-r.Majorant.Value, lab, "J(u) ≥ J(v) − majorant")
+	add("energy", r.Energy, Estimate, fmt.Sprintf("J(v), quadrature of degree %d", r.Degree))
+	add("gap_integral", r.D, Estimate, "∫ D_G(∇v, y*), quadrature")
+	add("residual_term", r.R.Value, lab, fmt.Sprintf("R in ∫ r(u − v) ≤ R ‖∇(u − v)‖, %s form", r.Form))
+	add("theta", r.Theta, lab, "θ of the Young form (1 − θ)μ + μ* ≤ …")
+	if !math.IsNaN(r.YoungRHS) {
+		add("young_rhs", r.YoungRHS, lab, "right side of the Young form at that θ")
+	}
+	if mf := p.Manufactured(); mf != nil {
+		_, _, grad := mf.Steady(0)
+		per := primalError(sol.Space, p.G, sol.V, grad)
+		mu := sum(per)
+		dual := dualError(sol.Space, p.G, b.Flux, grad, st.degree)
+		note := ""
+		if interpolatedData(r.Assumptions) {
+			note = "; the bounds concern the interpolated boundary data, this u does not, so efficiency may fall below 1"
+		}
+		add("primal_error", mu, Reference, fmt.Sprintf("μ(v) = ∫ D_G(∇v, ∂G(∇u)) from the exact solution, quadrature degree %d%s", errorDegree, note))
+		add("dual_error", dual, Reference, "μ*(y*) = ∫ D_G(∇u, y*) from the exact solution")
+		add("efficiency", r.Majorant.Value/mu, Reference, "majorant / μ(v) (≥ 1)")
+		add("total_efficiency", (r.Majorant.Value+r.Dual.Value)/(mu+dual), Reference, "(majorant + dual_majorant) / (μ(v) + μ*(y*))")
+	}
+	assum := append([]string{}, r.Assumptions...)
+	if st.flux == fluxEquilibrated {
+		assum = append(assum, fmt.Sprintf("equilibrated Raviart–Thomas flux of order %d, %d Newton steps", st.order, st.newton))
+	} else {
+		assum = append(assum, "averaged flux")
+	}
+	t := Table{Name: "assumptions", Title: "What the guaranteed numbers rest on", Columns: []Column{{Name: "item"}}}
+	for i, a := range assum {
+		t.Labels = append(t.Labels, a)
+		t.Rows = append(t.Rows, []float64{float64(i + 1)})
+	}
+	res.Tables = append(res.Tables, t)
+	m := sol.Mesh
+	if m.Dim == 2 && m.NumCells() <= fieldCellLimit {
+		res.Fields = append(res.Fields, meshField(m, "indicators", "local indicators η_T (they sum to the majorant)", r.Indicators, true))
+	} else if m.Dim == 1 {
+		xs := make([]float64, m.NumCells())
+		for k, cl := range m.Cells {
+			xs[k] = (m.Nodes[cl[0]].X + m.Nodes[cl[1]].X) / 2
+		}
+		res.Plots = append(res.Plots, Plot{Name: "indicators", Title: "local indicators η_T at cell midpoints", XLabel: "x", YLabel: "η_T", LogY: true,
+			Series: []Series{{Name: "η_T", X: xs, Y: r.Indicators}}})
+	}
+	return res
+}
+
+// addMinorant solves on the uniform refinement of the mesh and adds the
+// minorant, the upper end of the energy interval and, where it applies,
+// the flow-rate interval.
+func addMinorant(c *Context, b *Bounds, st boundSettings, res *Results) error {
+	sol := b.Solution
+	p := sol.Problem
+	r := b.Result
+	fine, err := sol.Mesh.Refine()
+	if err != nil {
+		return FieldErr("minorant", "refined mesh: %v; switch the minorant off", err)
+	}
+	w, err := solveWith(c, p, fine, coarseData(sol, fine), sol.Tolerance, sol.MaxNewton)
+	if err != nil {
+		if fe, ok := err.(*FieldError); ok {
+			return FieldErr("minorant", "solve on the refined mesh: %s", fe.Msg)
+		}
+		return FieldErr("minorant", "solve on the refined mesh: %v", err)
+	}
+	jw := estimate.Energy(w.Space, p.G, p.Source(), w.V, r.Degree)
+	mu := estimate.Minorant(r.Energy, jw)
+	lab := convexLabel(r.Label)
+	e := estimate.EnergyInterval(r, mu)
+	res.Scalars = append(res.Scalars,
+		Scalar{Name: "minorant", Value: mu, Label: lab, Unit: "μ(v) ≥ J(v) − J(w), w on the refined mesh"},
+		Scalar{Name: "energy_high", Value: e.Hi, Label: lab, Unit: "J(u) ≤ J(w)"})
+	if p.Family == potPower && p.ZeroDirichlet() && !math.IsNaN(p.FConst) && p.FConst != 0 {
+		q, err := estimate.FlowRate(e, p.Alpha, p.FConst)
+		if err == nil {
+			res.Scalars = append(res.Scalars,
+				Scalar{Name: "flow_low", Value: q.Lo, Label: lab, Unit: "Q = ∫u ≥ flow_low (power potential, u_D = 0, constant f)"},
+				Scalar{Name: "flow_high", Value: q.Hi, Label: lab, Unit: "Q = ∫u ≤ flow_high"})
+		}
+	}
+	return nil
+}
+
+// interpolatedData reports whether the bounds were computed for the
+// problem with interpolated boundary data.
+func interpolatedData(assumptions []string) bool {
+	for _, a := range assumptions {
+		if strings.Contains(a, "interpolated") {
+			return true
+		}
+	}
+	return false
+}
+
+// coarseData returns the boundary data of v (the interpolant of u_D on
+// the coarse mesh) at the nodes of its uniform refinement fine, so that
+// the refined solution w solves the same problem as v and J(v) − J(w)
+// bounds μ(v) from below even when u_D is not linear on the boundary
+// edges.
+func coarseData(sol *Solution, fine *mesh.Mesh) func(x, y float64) float64 {
+	vals := make(map[mesh.Point]float64, len(fine.Nodes))
+	for i, q := range fine.Nodes {
+		if fine.Boundary[i] {
+			pp := fine.Parents[i]
+			vals[q] = (sol.V[pp[0]] + sol.V[pp[1]]) / 2
+		}
+	}
+	uD := sol.Problem.Dirichlet()
+	return func(x, y float64) float64 {
+		if v, ok := vals[mesh.Point{X: x, Y: y}]; ok {
+			return v
+		}
+		if uD == nil {
+			return 0
+		}
+		return uD(x, y)
+	}
+}
+
+// dualError returns μ*(y*) = ∫ D_G(∇u, y*) by quadrature of the given
+// degree, with y* evaluated through the Flux interface.
+func dualError(s *fem.P1, G convex.Potential, y estimate.Flux, grad func(x, y float64) (float64, float64), degree int) float64 {
+	r := s.Rule(max(degree, errorDegree))
+	dim := s.Mesh.Dim
+	wsum := 0.0
+	for _, w := range r.Weights {
+		wsum += w
+	}
+	total := 0.0
+	for k, cl := range s.Mesh.Cells {
+		acc := 0.0
+		for q, pt := range r.Points {
+			lam := [3]float64{1 - pt[0] - pt[1], pt[0], pt[1]}
+			if dim == 1 {
+				lam = [3]float64{1 - pt[0], pt[0], 0}
+			}
+			var x, yy float64
+			for a := range dim + 1 {
+				n := s.Mesh.Nodes[cl[a]]
+				x += lam[a] * n.X
+				yy += lam[a] * n.Y
+			}
+			ys, _ := y.At(k, lam)
+			gx, gy := grad(x, yy)
+			acc += r.Weights[q] * convex.Gap(G, [2]float64{gx, gy}, ys)
+		}
+		total += acc / wsum * s.Area[k]
+	}
+	return total
+}
