@@ -1,6 +1,7 @@
 package estimate
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"testing"
@@ -25,6 +26,12 @@ var fluxBuilders = []fluxBuilder{
 	// the residual vanishes and only the oscillation-free part is tested.
 	{"exact+curl", func(s *fem.P1, G convex.Potential, m *manufactured, f func(x, y float64) float64, _ []float64) (Flux, error) {
 		return &exactFlux{s: s, G: G, m: m, delta: 0.05, f: f}, nil
+	}},
+	{"equilibrated-rt0", func(s *fem.P1, G convex.Potential, _ *manufactured, f func(x, y float64) float64, v []float64) (Flux, error) {
+		return Equilibrate(context.Background(), s, G, v, FuncSource(s.Mesh, f), EquilibrateOptions{})
+	}},
+	{"equilibrated-rt1", func(s *fem.P1, G convex.Potential, _ *manufactured, f func(x, y float64) float64, v []float64) (Flux, error) {
+		return Equilibrate(context.Background(), s, G, v, FuncSource(s.Mesh, f), EquilibrateOptions{Order: 1})
 	}},
 }
 
