@@ -6,10 +6,21 @@ NUMERIC  := $(foreach d,expr convex mesh fem nonlinear estimate,$(if $(wildcard 
 # Raw benchmark outputs for the nonlinear table.
 BENCHOUT := $(or $(TMPDIR),/tmp)
 
-.PHONY: run test test-native test-wasm vet bench fuzz
+.PHONY: run wasm build test test-native test-wasm vet bench fuzz
 
-run:
-	$(GO) run ./cmd/gapbook run examples/default.gapbook
+# The page's engine: Go compiled to WebAssembly, with the runtime support
+# script of the same Go. Both are git-ignored and embedded by `build`.
+wasm:
+	GOOS=js GOARCH=wasm $(GO) build -trimpath -ldflags='-s -w' -o web/static/gapbook.wasm ./wasm
+	cp "$(WASMPATH)/wasm_exec.js" web/static/wasm_exec.js
+
+build: wasm
+	$(GO) build -trimpath -o bin/gapbook ./cmd/gapbook
+
+# Serve the default study in the browser (ADDR=127.0.0.1:PORT to change).
+ADDR ?= 127.0.0.1:8787
+run: build
+	bin/gapbook serve --addr $(ADDR) examples/default.gapbook
 
 test: vet test-native test-wasm
 

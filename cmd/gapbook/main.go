@@ -4,11 +4,18 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"net"
+	"net/http"
 	"os"
 	"os/signal"
+	"path/filepath"
+	"strings"
 
+	"gapbook/examples"
 	"gapbook/notebook"
+	"gapbook/web"
 )
 
 const usage = `gapbook: guaranteed error bounds for nonlinear diffusion, as a notebook
@@ -29,6 +36,10 @@ func main() {
 		fmt.Print(usage)
 	case "run":
 		os.Exit(run(os.Args[2:]))
+	case "serve":
+		os.Exit(serve(os.Args[2:]))
+	case "export":
+		os.Exit(export(os.Args[2:]))
 	default:
 		fmt.Fprintf(os.Stderr, "gapbook %s: not available yet in this build\n", os.Args[1])
 		os.Exit(2)
@@ -74,5 +85,108 @@ func run(args []string) int {
 	if !ok {
 		return 1
 	}
+	return 0
+}
+
+// serve parses `gapbook serve [--addr HOST:PORT] [FILE]` and serves the
+// page until interrupted; without FILE it serves the default study.
+func serve(args []string) int {
+	addr, file := "127.0.0.1:8787", ""
+	for i := 0; i < len(args); i++ {
+		switch a := args[i]; {
+		case a == "--addr" || a == "-addr":
+			if i+1 >= len(args) {
+				fmt.Fprintln(os.Stderr, "gapbook serve: --addr needs HOST:PORT, for example 127.0.0.1:8787")
+				return 2
+			}
+			i++
+			addr = args[i]
+		case strings.HasPrefix(a, "--addr="):
+			addr = strings.TrimPrefix(a, "--addr=")
+		case strings.HasPrefix(a, "-") || file != "":
+			fmt.Fprintf(os.Stderr, "gapbook serve: unexpected argument %q\n%s", a, usage)
+			return 2
+		default:
+			file = a
+		}
+	}
+	doc := examples.Default
+	if file != "" {
+		b, err := os.ReadFile(file)
+		if err != nil {
+			fmt.Fprintf(os.Stderr, "gapbook serve: %v\n", err)
+			return 2
+		}
+		if nb, err := notebook.Load(b); nb == nil {
+			fmt.Fprintf(os.Stderr, "gapbook serve: %s:\n%v\n", file, err)
+			return 2
+		}
+		doc = b
+	}
+	if err := web.Missing(web.Assets()); err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook serve: %v\nThe page will say so too.\n", err)
+	}
+	ln, err := net.Listen("tcp", addr)
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook serve: %v\n", err)
+		return 2
+	}
+	name := "the default study"
+	if file != "" {
+		name = filepath.Base(file)
+	}
+	fmt.Printf("gapbook: serving %s at http://%s/  (Ctrl+C stops)\n", name, ln.Addr())
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	srv := &http.Server{Handler: web.Handler(web.Options{Notebook: doc})}
+	go func() { <-ctx.Done(); srv.Close() }()
+	if err := srv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
+		fmt.Fprintf(os.Stderr, "gapbook serve: %v\n", err)
+		return 1
+	}
+	return 0
+}
+
+// export parses `gapbook export FILE --standalone out.html` and writes the
+// single-file page with results computed here, for the page to reproduce.
+func export(args []string) int {
+	var file, out string
+	for i := 0; i < len(args); i++ {
+		switch a := args[i]; {
+		case a == "--standalone" || a == "-standalone":
+			if i+1 >= len(args) {
+				fmt.Fprintln(os.Stderr, "gapbook export: --standalone needs the name of the page to write, for example out.html")
+				return 2
+			}
+			i++
+			out = args[i]
+		case strings.HasPrefix(a, "-") || file != "":
+			fmt.Fprintf(os.Stderr, "gapbook export: unexpected argument %q\n%s", a, usage)
+			return 2
+		default:
+			file = a
+		}
+	}
+	if file == "" || out == "" {
+		fmt.Fprintf(os.Stderr, "gapbook export: want FILE --standalone out.html\n%s", usage)
+		return 2
+	}
+	doc, err := os.ReadFile(file)
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook export: %v\n", err)
+		return 2
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	page, err := web.Export(ctx, doc, web.Assets())
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook export: %s: %v\n", file, err)
+		return 2
+	}
+	if err := os.WriteFile(out, page, 0o644); err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook export: %v\n", err)
+		return 2
+	}
+	fmt.Fprintf(os.Stderr, "gapbook export: wrote %s (%d bytes); it opens from disk and recomputes offline\n", out, len(page))
 	return 0
 }

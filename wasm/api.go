@@ -1,0 +1,386 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+
+	"gapbook/notebook"
+)
+
+// request is one message from the page.
+type request struct {
+	ID       int                `json:"id"`
+	Op       string             `json:"op"`
+	Doc      string             `json:"doc,omitempty"`
+	Only     []string           `json:"only,omitempty"`
+	Override *notebook.Override `json:"override,omitempty"`
+	Record   string             `json:"record,omitempty"`
+	Text     string             `json:"text,omitempty"`
+	Runs     []int              `json:"runs,omitempty"`
+	Cell     string             `json:"cell,omitempty"`
+	Table    string             `json:"table,omitempty"`
+	X        string             `json:"x,omitempty"`
+	Y        string             `json:"y,omitempty"`
+}
+
+// kindView describes a kind for the page, which builds its forms from it.
+type kindView struct {
+	Name   string      `json:"name"`
+	Doc    string      `json:"doc"`
+	Inputs []inputView `json:"inputs"`
+	// Body is true for kinds that render themselves (a note).
+	Body bool `json:"body"`
+}
+
+type boundView struct {
+	Value  float64 `json:"value"`
+	Strict bool    `json:"strict"`
+}
+
+type inputView struct {
+	Name     string     `json:"name"`
+	Doc      string     `json:"doc"`
+	Type     string     `json:"type"`
+	Default  any        `json:"default"`
+	Optional bool       `json:"optional,omitempty"`
+	Low      *boundView `json:"low,omitempty"`
+	High     *boundView `json:"high,omitempty"`
+	Choices  []string   `json:"choices,omitempty"`
+	RefKinds []string   `json:"refKinds,omitempty"`
+	MaxLen   int        `json:"maxLen,omitempty"`
+}
+
+var typeNames = map[notebook.Type]string{
+	notebook.Number: "number", notebook.Integer: "integer", notebook.Text: "text",
+	notebook.Bool: "bool", notebook.Choice: "choice", notebook.Ref: "ref",
+	notebook.Numbers: "numbers", notebook.Texts: "texts",
+}
+
+func kindViews() []kindView {
+	var out []kindView
+	for _, name := range notebook.Kinds() {
+		k, _ := notebook.Lookup(name)
+		kv := kindView{Name: name, Doc: k.Doc(), Inputs: []inputView{}}
+		_, kv.Body = k.(notebook.Renderer)
+		for _, in := range k.Inputs() {
+			iv := inputView{Name: in.Name, Doc: in.Doc, Type: typeNames[in.Type], Default: in.Default,
+				Optional: in.Optional, Choices: in.Choices, RefKinds: in.RefKinds, MaxLen: in.MaxLen}
+			if in.Low.Set {
+				iv.Low = &boundView{in.Low.Value, in.Low.Strict}
+			}
+			if in.High.Set {
+				iv.High = &boundView{in.High.Value, in.High.Strict}
+			}
+			kv.Inputs = append(kv.Inputs, iv)
+		}
+		out = append(out, kv)
+	}
+	return out
+}
+
+// scalarView is a scalar as the page shows it: Shown for people, Value
+// with every digit (for copying and for tests), never a bare number
+// without its label.
+type scalarView struct {
+	Name  string `json:"name"`
+	Value string `json:"value"`
+	Shown string `json:"shown"`
+	Label string `json:"label"`
+	Unit  string `json:"unit,omitempty"`
+}
+
+type errView struct {
+	Field string `json:"field,omitempty"`
+	Msg   string `json:"msg"`
+	Needs string `json:"needs,omitempty"`
+}
+
+// cellView is one cell's state and rendered results.
+type cellView struct {
+	ID      string       `json:"id"`
+	Kind    string       `json:"kind"`
+	Status  string       `json:"status"`
+	Error   *errView     `json:"error,omitempty"`
+	Body    string       `json:"body,omitempty"`
+	Scalars []scalarView `json:"scalars"`
+	// HTML renders tables, plots and fields (safe: everything escaped).
+	HTML        string   `json:"html"`
+	Tables      []string `json:"tables"`
+	Digest      string   `json:"digest,omitempty"`
+	Reproduced  string   `json:"reproduced,omitempty"`
+	Differences []string `json:"differences,omitempty"`
+	Cached      bool     `json:"cached,omitempty"`
+	// Fields maps an input to its own message when that input is to blame.
+	Fields map[string]string `json:"fields,omitempty"`
+}
+
+func fullNumber(v float64) string {
+	switch {
+	case math.IsNaN(v):
+		return "NaN"
+	case math.IsInf(v, 1):
+		return "Inf"
+	case math.IsInf(v, -1):
+		return "-Inf"
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64)
+}
+
+func view(c *notebook.Cell, o *notebook.Outcome) cellView {
+	v := cellView{ID: c.ID, Kind: c.Kind, Status: string(notebook.StatusStale), Scalars: []scalarView{}, Tables: []string{}}
+	if k, ok := notebook.Lookup(c.Kind); ok {
+		if rd, ok := k.(notebook.Renderer); ok {
+			vals, _ := notebook.ParseInputs(k, c.Inputs)
+			var res *notebook.Results
+			if o != nil {
+				res = o.Results
+			}
+			v.Body = rd.RenderHTML(vals, res)
+		}
+		if _, errs := notebook.ParseInputs(k, c.Inputs); len(errs) > 0 {
+			v.Fields = map[string]string{}
+			for _, fe := range errs {
+				v.Fields[fe.Field] = fe.Msg
+			}
+		}
+	}
+	if o == nil {
+		return v
+	}
+	v.Status, v.Digest, v.Reproduced, v.Differences, v.Cached = string(o.Status), o.Digest, o.Reproduced, o.Differences, o.Cached
+	if o.Err != nil {
+		v.Error = &errView{Field: o.Err.Field, Msg: o.Err.Msg, Needs: o.Err.Needs}
+		if o.Err.Field != "" {
+			if v.Fields == nil {
+				v.Fields = map[string]string{}
+			}
+			if _, ok := v.Fields[o.Err.Field]; !ok {
+				v.Fields[o.Err.Field] = o.Err.Msg
+			}
+		}
+	}
+	if r := o.Results; r != nil {
+		for _, s := range r.Scalars {
+			v.Scalars = append(v.Scalars, scalarView{s.Name, fullNumber(s.Value), notebook.FormatNumber(s.Value), string(s.Label), s.Unit})
+		}
+		rest := &notebook.Results{Tables: r.Tables, Plots: r.Plots, Fields: r.Fields}
+		v.HTML = notebook.RenderResults(rest)
+		for _, t := range r.Tables {
+			v.Tables = append(v.Tables, t.Name)
+		}
+	}
+	return v
+}
+
+// runView is a run of the history as listed in the runs panel.
+type runView struct {
+	At       string             `json:"at"`
+	Label    string             `json:"label"`
+	Override *notebook.Override `json:"override,omitempty"`
+	OK       int                `json:"ok"`
+	Failed   int                `json:"failed"`
+	// Tables lists "cell/table" names present in the run, for overlays.
+	Tables []string `json:"tables"`
+}
+
+func runViews(nb *notebook.Notebook) []runView {
+	out := []runView{}
+	for _, r := range nb.History {
+		rv := runView{At: r.At, Label: r.Label, Override: r.Override, Tables: []string{}}
+		for _, c := range nb.Cells {
+			rc, ok := r.Cells[c.ID]
+			if !ok {
+				continue
+			}
+			switch rc.Status {
+			case notebook.StatusOK:
+				rv.OK++
+			case notebook.StatusError:
+				rv.Failed++
+			}
+			for _, t := range rc.Tables {
+				rv.Tables = append(rv.Tables, c.ID+"/"+t.Name)
+			}
+		}
+		out = append(out, rv)
+	}
+	return out
+}
+
+// server answers requests; it keeps one engine so unchanged cells are
+// not computed twice.
+type server struct {
+	engine *notebook.Engine
+	post   func(msg map[string]any)
+	now    func() time.Time
+}
+
+func newServer(post func(map[string]any)) *server {
+	return &server{engine: notebook.NewEngine(), post: post, now: time.Now}
+}
+
+func (s *server) ready() {
+	s.post(map[string]any{"type": "ready", "kinds": kindViews(), "caution": notebook.Caution, "version": notebook.FormatVersion})
+}
+
+// handle serves one request; it never panics on bad input.
+func (s *server) handle(data []byte) {
+	var q request
+	if err := json.Unmarshal(data, &q); err != nil {
+		s.post(map[string]any{"type": "error", "error": "request: " + err.Error()})
+		return
+	}
+	defer func() {
+		if p := recover(); p != nil {
+			s.post(map[string]any{"id": q.ID, "type": "error", "error": fmt.Sprintf("internal error (please report it): %v", p)})
+		}
+	}()
+	reply, err := s.answer(&q)
+	if err != nil {
+		s.post(map[string]any{"id": q.ID, "type": "error", "error": err.Error()})
+		return
+	}
+	reply["id"], reply["type"] = q.ID, "done"
+	s.post(reply)
+}
+
+func (s *server) load(q *request) (*notebook.Notebook, []string, error) {
+	nb, err := notebook.Load([]byte(q.Doc))
+	if nb == nil {
+		return nil, nil, fmt.Errorf("the notebook cannot be opened:\n%v", err)
+	}
+	problems := []string{}
+	if le, ok := err.(*notebook.LoadError); ok {
+		for _, p := range le.Problems {
+			problems = append(problems, p.String())
+		}
+	}
+	return nb, problems, nil
+}
+
+func (s *server) answer(q *request) (map[string]any, error) {
+	switch q.Op {
+	case "kinds":
+		return map[string]any{"kinds": kindViews()}, nil
+	case "preview":
+		return map[string]any{"html": notebook.Markdown(q.Text)}, nil
+	}
+	nb, problems, err := s.load(q)
+	if err != nil {
+		return nil, err
+	}
+	switch q.Op {
+	case "show":
+		states := nb.States()
+		return s.views(nb, states, problems), nil
+	case "run":
+		return s.run(q, nb, problems)
+	case "report":
+		return map[string]any{"html": string(notebook.Report(nb, &notebook.Evaluation{Cells: nb.States()}))}, nil
+	case "csv":
+		for _, o := range nb.States() {
+			if o.ID == q.Cell && o.Results != nil {
+				if t, ok := o.Results.Table(q.Table); ok {
+					var b bytes.Buffer
+					if err := notebook.WriteCSV(&b, *t); err != nil {
+						return nil, err
+					}
+					return map[string]any{"csv": b.String()}, nil
+				}
+			}
+		}
+		return nil, fmt.Errorf("cell %s has no current table %q; run it first", q.Cell, q.Table)
+	case "compare":
+		var runs []notebook.Run
+		for _, i := range q.Runs {
+			if i < 0 || i >= len(nb.History) {
+				return nil, fmt.Errorf("compare: no run %d; the history has %d runs", i, len(nb.History))
+			}
+			runs = append(runs, nb.History[i])
+		}
+		if len(runs) == 0 {
+			return nil, fmt.Errorf("compare: choose at least one run")
+		}
+		t := notebook.CompareRuns(nb, runs)
+		var b bytes.Buffer
+		if err := notebook.WriteCSV(&b, t); err != nil {
+			return nil, err
+		}
+		out := map[string]any{"html": notebook.RenderTable(t), "csv": b.String()}
+		if q.Cell != "" && q.X != "" && q.Y != "" {
+			p := notebook.OverlayRuns(runs, q.Cell, q.Table, q.X, q.Y)
+			if len(p.Series) > 0 {
+				out["plot"] = notebook.PlotSVG(p)
+			} else {
+				out["plotError"] = fmt.Sprintf("no chosen run has columns %q and %q in table %q of cell %s", q.X, q.Y, q.Table, q.Cell)
+			}
+		}
+		return out, nil
+	}
+	return nil, fmt.Errorf("unknown operation %q; known: show, run, preview, compare, report, csv, kinds", q.Op)
+}
+
+func (s *server) views(nb *notebook.Notebook, outs []*notebook.Outcome, problems []string) map[string]any {
+	cells := make([]cellView, 0, len(nb.Cells))
+	for i, c := range nb.Cells {
+		var o *notebook.Outcome
+		if i < len(outs) {
+			o = outs[i]
+		}
+		cells = append(cells, view(c, o))
+	}
+	return map[string]any{"title": nb.Title, "cells": cells, "problems": problems, "runs": runViews(nb)}
+}
+
+func (s *server) run(q *request, nb *notebook.Notebook, problems []string) (map[string]any, error) {
+	last := time.Time{}
+	ev, err := s.engine.Evaluate(context.Background(), nb, notebook.Options{
+		Only: q.Only, Override: q.Override,
+		Progress: func(p notebook.Progress) {
+			if p.Done {
+				c, _ := nb.Cell(p.ID)
+				s.post(map[string]any{"id": q.ID, "type": "cell", "view": view(c, p.Outcome)})
+				return
+			}
+			// At most about 20 progress messages a second reach the page.
+			if t := s.now(); p.Fraction == 0 || t.Sub(last) > 50*time.Millisecond {
+				last = t
+				s.post(map[string]any{"id": q.ID, "type": "progress", "cell": p.ID, "fraction": p.Fraction, "message": p.Message})
+			}
+		},
+	})
+	if err != nil {
+		return nil, err
+	}
+	if q.Record != "" {
+		nb.Record(ev, strings.TrimSpace(q.Record), s.now())
+	} else if q.Override == nil {
+		for _, o := range ev.Cells {
+			if o.Status == notebook.StatusOK {
+				c, _ := nb.Cell(o.ID)
+				c.Saved = &notebook.Saved{Hash: o.Hash, Digest: o.Digest, Results: o.Results}
+			}
+		}
+	}
+	doc, err := notebook.Save(nb)
+	if err != nil {
+		return nil, err
+	}
+	// Cells left out of an "only" run keep what the file says about them.
+	states := nb.States()
+	for i, o := range ev.Cells {
+		if o.Status == notebook.StatusStale && i < len(states) && !ev.Canceled {
+			ev.Cells[i] = states[i]
+		}
+	}
+	out := s.views(nb, ev.Cells, problems)
+	out["doc"] = string(doc)
+	out["canceled"] = ev.Canceled
+	return out, nil
+}

@@ -1,0 +1,27 @@
+// Command wasm is the notebook engine as a WebAssembly program for a Web
+// Worker: it decodes requests from the page, calls package notebook and
+// posts progress and results back. It holds no numerics of its own.
+//
+// # Protocol
+//
+// Every message is a JSON text. The page sends requests
+//
+//	{"id": 7, "op": "run", "doc": "<the .gapbook file text>", "only": ["solve"], "record": "p = 3"}
+//
+// and the worker answers with messages carrying the same id and a type:
+//
+//	{"type": "ready", "kinds": [...], "caution": "...", "version": 1}   once, at start-up (id 0)
+//	{"id": 7, "type": "progress", "cell": "solve", "fraction": 0.4, "message": "Newton step 3"}
+//	{"id": 7, "type": "cell", "view": {...}}      a cell finished (run only)
+//	{"id": 7, "type": "done", ...}                the answer; ends the request
+//	{"id": 7, "type": "error", "error": "..."}    the request failed; ends it
+//
+// Operations: "show" (cell views from the saved results, no evaluation),
+// "run" (evaluate all cells or "only" some and the cells they need; the
+// answer carries the updated document with the new results saved and, when
+// "record" is set, a run appended to the history), "preview" (markdown of
+// a note), "compare" (runs side by side: table and overlaid plot),
+// "report" (the printable page) and "csv" (a table of a cell as CSV).
+// Cancelling is the page's job: it terminates the worker and starts a new
+// one from the compiled module.
+package main

@@ -1,0 +1,240 @@
+// Package web holds the browser notebook (the page, its script and style,
+// and the worker that runs the engine compiled to WebAssembly), serves it
+// with a strict Content Security Policy, and writes the single-file page
+// that opens from disk and recomputes offline.
+//
+// The engine itself, static/gapbook.wasm, and the Go runtime support script
+// static/wasm_exec.js are built files, git-ignored: `make wasm` builds them.
+// Without them the page is served but says how to build the engine.
+package web
+
+import (
+	"bytes"
+	"compress/gzip"
+	"context"
+	"crypto/sha256"
+	"embed"
+	"encoding/base64"
+	"errors"
+	"fmt"
+	"io"
+	"io/fs"
+	"net/http"
+	"path"
+	"strings"
+
+	"gapbook/notebook"
+)
+
+//go:embed static
+var embedded embed.FS
+
+// Assets returns the page's files embedded in the binary.
+func Assets() fs.FS {
+	sub, err := fs.Sub(embedded, "static")
+	if err != nil {
+		panic(err) // the directory is part of the source tree
+	}
+	return sub
+}
+
+// Build names the command that builds the engine, for messages.
+const Build = "make wasm  (or: GOOS=js GOARCH=wasm go build -trimpath -ldflags='-s -w' -o web/static/gapbook.wasm ./wasm && cp \"$(go env GOROOT)/lib/wasm/wasm_exec.js\" web/static/)"
+
+// Missing reports which built files are absent from assets, with how to
+// build them, or nil when the page is complete.
+func Missing(assets fs.FS) error {
+	var miss []string
+	for _, f := range []string{"gapbook.wasm", "wasm_exec.js"} {
+		if _, err := fs.Stat(assets, f); err != nil {
+			miss = append(miss, f)
+		}
+	}
+	if len(miss) == 0 {
+		return nil
+	}
+	return fmt.Errorf("the page's engine is not built (%s missing); build it with:\n  %s", strings.Join(miss, ", "), Build)
+}
+
+// Policy is the Content Security Policy of the served page: scripts only
+// from the page's own files (and WebAssembly compilation), no network
+// beyond its own origin, no plugins, frames, forms or base changes.
+// Inline styles are allowed because the printable report opens from a blob
+// and carries its own style sheet; notebook content is escaped regardless.
+const Policy = "default-src 'none'; script-src 'self' 'wasm-unsafe-eval'; connect-src 'self'; " +
+	"worker-src 'self' blob:; img-src 'self' data: blob:; style-src 'self' 'unsafe-inline'; font-src 'self'; " +
+	"frame-ancestors 'none'; base-uri 'none'; form-action 'none'; object-src 'none'"
+
+// Options configure Handler.
+type Options struct {
+	// Notebook is the file served as the page's notebook.
+	Notebook []byte
+	// Assets are the page's files; nil means the embedded ones.
+	Assets fs.FS
+}
+
+// Handler serves the page, its files, the notebook at /notebook.gapbook
+// and, for POST /standalone with a notebook as the body, the single-file
+// page of it.
+func Handler(o Options) http.Handler {
+	assets := o.Assets
+	if assets == nil {
+		assets = Assets()
+	}
+	files := http.FileServerFS(assets)
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		h := w.Header()
+		h.Set("Content-Security-Policy", Policy)
+		h.Set("X-Content-Type-Options", "nosniff")
+		h.Set("Referrer-Policy", "no-referrer")
+		h.Set("Cache-Control", "no-cache")
+		switch r.URL.Path {
+		case "/notebook.gapbook":
+			h.Set("Content-Type", "application/json")
+			w.Write(o.Notebook)
+			return
+		case "/standalone":
+			if r.Method != http.MethodPost {
+				http.Error(w, "POST a notebook to get its standalone page", http.StatusMethodNotAllowed)
+				return
+			}
+			doc, err := io.ReadAll(io.LimitReader(r.Body, notebook.MaxFileBytes+1))
+			if err == nil && len(doc) > notebook.MaxFileBytes {
+				err = fmt.Errorf("notebook larger than %d bytes", notebook.MaxFileBytes)
+			}
+			var page []byte
+			if err == nil {
+				page, err = Standalone(doc, assets)
+			}
+			if err != nil {
+				http.Error(w, err.Error(), http.StatusBadRequest)
+				return
+			}
+			h.Set("Content-Type", "text/html; charset=utf-8")
+			w.Write(page)
+			return
+		case "/gapbook.wasm", "/wasm_exec.js":
+			if _, err := fs.Stat(assets, path.Base(r.URL.Path)); err != nil {
+				http.Error(w, Missing(assets).Error(), http.StatusNotFound)
+				return
+			}
+		}
+		files.ServeHTTP(w, r)
+	})
+}
+
+// Export evaluates the notebook natively, saves the results in it (so the
+// page can check that it reproduces them) and returns its standalone page.
+// Cells that fail keep no results; the page shows their errors.
+func Export(ctx context.Context, doc []byte, assets fs.FS) ([]byte, error) {
+	nb, err := notebook.Load(doc)
+	if nb == nil {
+		return nil, err
+	}
+	ev, err := notebook.NewEngine().Evaluate(ctx, nb, notebook.Options{})
+	if err != nil {
+		return nil, err
+	}
+	if ev.Canceled {
+		return nil, ctx.Err()
+	}
+	for _, o := range ev.Cells {
+		if o.Status == notebook.StatusOK {
+			c, _ := nb.Cell(o.ID)
+			c.Saved = &notebook.Saved{Hash: o.Hash, Digest: o.Digest, Results: o.Results}
+		}
+	}
+	saved, err := notebook.Save(nb)
+	if err != nil {
+		return nil, err
+	}
+	return Standalone(saved, assets)
+}
+
+// Standalone returns one HTML file that holds the page, its scripts as
+// inert text blocks, the engine (gzip, base64) and the notebook; a single
+// bootstrap script, allowed by its hash in the page's policy, starts it.
+// It works opened from disk (file://) and needs no network.
+func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
+	if assets == nil {
+		assets = Assets()
+	}
+	if err := Missing(assets); err != nil {
+		return nil, err
+	}
+	if _, err := notebook.Load(doc); err != nil {
+		var le *notebook.LoadError
+		if !errors.As(err, &le) {
+			return nil, err
+		}
+	}
+	read := func(name string) (string, error) {
+		b, err := fs.ReadFile(assets, name)
+		if err != nil {
+			return "", err
+		}
+		s := string(b)
+		if low := strings.ToLower(s); strings.Contains(low, "</script") || strings.Contains(low, "<!--") {
+			return "", fmt.Errorf("%s contains </script or <!-- and cannot be inlined", name)
+		}
+		return s, nil
+	}
+	page, err := readPage(assets)
+	if err != nil {
+		return nil, err
+	}
+	var parts [4]string
+	for i, name := range []string{"app.js", "worker.js", "wasm_exec.js", "style.css"} {
+		if parts[i], err = read(name); err != nil {
+			return nil, err
+		}
+	}
+	wasm, err := fs.ReadFile(assets, "gapbook.wasm")
+	if err != nil {
+		return nil, err
+	}
+	var gz bytes.Buffer
+	zw, _ := gzip.NewWriterLevel(&gz, gzip.BestCompression)
+	zw.Write(wasm)
+	zw.Close()
+
+	// JSON allows \u003c for "<" inside strings, and "<" occurs nowhere else,
+	// so the notebook cannot close its block.
+	docText := strings.ReplaceAll(string(doc), "<", `\u003c`)
+	const boot = `(()=>{const s=document.createElement('script');s.src=URL.createObjectURL(new Blob([document.getElementById('src-app').textContent],{type:'text/javascript'}));document.head.append(s);})();`
+	sum := sha256.Sum256([]byte(boot))
+	csp := "default-src 'none'; script-src 'sha256-" + base64.StdEncoding.EncodeToString(sum[:]) + "' blob: 'wasm-unsafe-eval'; " +
+		"worker-src blob:; style-src 'unsafe-inline'; img-src data: blob:; connect-src 'none'; base-uri 'none'; form-action 'none'; object-src 'none'"
+
+	var b strings.Builder
+	b.WriteString("<script type=\"text/plain\" id=\"src-app\">" + parts[0] + "</script>\n")
+	b.WriteString("<script type=\"text/plain\" id=\"src-worker\">" + parts[1] + "</script>\n")
+	b.WriteString("<script type=\"text/plain\" id=\"src-wasm-exec\">" + parts[2] + "</script>\n")
+	b.WriteString("<script type=\"text/plain\" id=\"src-wasm\">" + base64.StdEncoding.EncodeToString(gz.Bytes()) + "</script>\n")
+	b.WriteString("<script type=\"application/json\" id=\"src-notebook\">" + docText + "</script>\n")
+	b.WriteString("<script>" + boot + "</script>\n")
+
+	r := strings.NewReplacer(
+		`<html lang="en" data-mode="served">`, `<html lang="en" data-mode="standalone">`,
+		`<meta charset="utf-8">`, `<meta charset="utf-8">`+"\n"+`<meta http-equiv="Content-Security-Policy" content="`+csp+`">`,
+		`<link rel="stylesheet" href="style.css">`, "<style>\n"+parts[3]+"</style>",
+		`<script src="app.js" defer></script>`, "",
+		"<!--/BODY-->", b.String(),
+		"<!--BODY-->", "",
+	)
+	return []byte(r.Replace(page)), nil
+}
+
+func readPage(assets fs.FS) (string, error) {
+	b, err := fs.ReadFile(assets, "index.html")
+	if err != nil {
+		return "", err
+	}
+	s := string(b)
+	for _, marker := range []string{`data-mode="served"`, `<link rel="stylesheet" href="style.css">`, `<script src="app.js" defer></script>`, "<!--/BODY-->"} {
+		if !strings.Contains(s, marker) {
+			return "", fmt.Errorf("index.html: marker %q not found; the standalone page cannot be assembled", marker)
+		}
+	}
+	return s, nil
+}
