@@ -65,7 +65,7 @@ func TestEquilibratedBalance(t *testing.T) {
 					v[i] = math.Sin(3*p.X)*p.Y + 0.1*rng.Float64()
 				}
 			}
-			y, err := Equilibrate(context.Background(), s, G, v, FuncSource(m, f), EquilibrateOptions{Order: order})
+			y, err := Equilibrate(context.Background(), s, G, v, FuncSource(m, f), EquilibrateOptions{Order: order, Degree: 8})
 			if err != nil {
 				t.Fatalf("%s k=%d: %v", name, order, err)
 			}

@@ -424,7 +424,9 @@ func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potent
 		if step == 0 {
 			e.addStep(delta, 1)
 			e.Steps++
-			phi = e.gapIntegral(st.s, G, grad, r)
+			if opt.Newton > 0 {
+				phi = e.gapIntegral(st.s, G, grad, r)
+			}
 			continue
 		}
 		accepted := false

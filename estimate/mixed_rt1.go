@@ -30,27 +30,48 @@ func (e *Equilibrated) addBubbles(k int, g *[3][2]float64) {
 
 // cellMatrix returns a zero CSR matrix of n rows whose pattern couples the
 // free local dofs of every cell, and the positions of the local entries.
+// Each row is gathered from the cells around its dof (a dof-to-cell
+// incidence built by counting) with a stamp array against duplicates, so
+// the only sorting is of the short rows.
 func cellMatrix(n int, dof [][6]int32) (*fem.CSR, [][36]int32) {
-	rows := make([][]int32, n)
+	start := make([]int32, n+1)
 	for _, d := range dof {
 		for _, a := range d {
-			if a < 0 {
-				continue
-			}
-			for _, b := range d {
-				if b >= 0 {
-					rows[a] = append(rows[a], b)
-				}
+			if a >= 0 {
+				start[a+1]++
 			}
 		}
 	}
-	a := &fem.CSR{Rows: n, Cols: n, RowPtr: make([]int32, n+1)}
-	for i, r := range rows {
-		slices.Sort(r)
-		r = slices.Compact(r)
-		a.Col = append(a.Col, r...)
+	for i := range n {
+		start[i+1] += start[i]
+	}
+	inc := make([]int32, start[n])
+	fill := append([]int32(nil), start[:n]...)
+	for k, d := range dof {
+		for _, a := range d {
+			if a >= 0 {
+				inc[fill[a]] = int32(k)
+				fill[a]++
+			}
+		}
+	}
+	stamp := make([]int32, n)
+	for i := range stamp {
+		stamp[i] = -1
+	}
+	a := &fem.CSR{Rows: n, Cols: n, RowPtr: make([]int32, n+1), Col: make([]int32, 0, 12*n)}
+	for i := range n {
+		first := len(a.Col)
+		for _, k := range inc[start[i]:start[i+1]] {
+			for _, b := range dof[k] {
+				if b >= 0 && stamp[b] != int32(i) {
+					stamp[b] = int32(i)
+					a.Col = append(a.Col, b)
+				}
+			}
+		}
+		slices.Sort(a.Col[first:])
 		a.RowPtr[i+1] = int32(len(a.Col))
-		rows[i] = nil
 	}
 	a.Val = make([]float64, len(a.Col))
 	pos := make([][36]int32, len(dof))
@@ -58,8 +79,14 @@ func cellMatrix(n int, dof [][6]int32) (*fem.CSR, [][36]int32) {
 		for i, x := range d {
 			for j, y := range d {
 				pos[k][6*i+j] = -1
-				if x >= 0 && y >= 0 {
-					pos[k][6*i+j] = int32(a.Find(int(x), int(y)))
+				if x < 0 || y < 0 {
+					continue
+				}
+				for p := a.RowPtr[x]; p < a.RowPtr[x+1]; p++ {
+					if a.Col[p] == y {
+						pos[k][6*i+j] = p
+						break
+					}
 				}
 			}
 		}
