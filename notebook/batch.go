@@ -16,6 +16,9 @@ type BatchOptions struct {
 	JSON bool
 	// Report, when set, is the path of an HTML report to write.
 	Report string
+	// Export, when set, is a directory that receives every table as CSV,
+	// plot as SVG and field as .vtu (see ExportResults).
+	Export string
 	// Stdout receives the JSON; Stderr one progress line per cell.
 	Stdout, Stderr io.Writer
 }
@@ -109,6 +112,13 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 		if err := os.WriteFile(o.Report, Report(nb, ev), 0o644); err != nil {
 			return nil, false, err
 		}
+	}
+	if o.Export != "" {
+		paths, err := ExportResults(o.Export, ev)
+		if err != nil {
+			return nil, false, err
+		}
+		fmt.Fprintf(o.Stderr, "%d files written to %s\n", len(paths), o.Export)
 	}
 	fmt.Fprintf(o.Stderr, "%d cells in %.2f s\n", len(ev.Cells), time.Since(start).Seconds())
 	return out, out.OK, nil

@@ -21,7 +21,9 @@ import (
 const usage = `gapbook: guaranteed error bounds for nonlinear diffusion, as a notebook
 
 usage:
-  gapbook run FILE [--json] [--report out.html]   evaluate a notebook
+  gapbook run FILE [--json] [--report out.html] [--export DIR]
+                                                  evaluate a notebook; --export writes
+                                                  tables (CSV), plots (SVG), fields (VTU)
   gapbook serve [--addr 127.0.0.1:PORT] [FILE]    serve the browser notebook
   gapbook export FILE --standalone out.html       write a single-file page
 `
@@ -63,6 +65,13 @@ func run(args []string) int {
 			}
 			i++
 			o.Report = args[i]
+		case "--export", "-export":
+			if i+1 >= len(args) {
+				fmt.Fprintln(os.Stderr, "gapbook run: --export needs a directory")
+				return 2
+			}
+			i++
+			o.Export = args[i]
 		default:
 			if len(a) > 0 && a[0] == '-' || file != "" {
 				fmt.Fprintf(os.Stderr, "gapbook run: unexpected argument %q\n%s", a, usage)

@@ -1,0 +1,87 @@
+package notebook
+
+import (
+	"bytes"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+)
+
+// ExportResults writes the results of every ok cell of ev into dir
+// (created if needed): each table as CSV, each plot as SVG and each field
+// as a VTK unstructured grid, named "<cell>-<result>.csv|svg|vtu". It
+// returns the paths written, in cell order.
+func ExportResults(dir string, ev *Evaluation) ([]string, error) {
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return nil, fmt.Errorf("export: %w", err)
+	}
+	var paths []string
+	used := map[string]bool{}
+	write := func(cell, name, ext string, data []byte) error {
+		base := fileWord(cell) + "-" + fileWord(name)
+		// Two results whose names differ only in characters a file name
+		// cannot hold get numbered instead of overwriting each other.
+		p := base + "." + ext
+		for i := 2; used[p]; i++ {
+			p = fmt.Sprintf("%s-%d.%s", base, i, ext)
+		}
+		used[p] = true
+		full := filepath.Join(dir, p)
+		if err := os.WriteFile(full, data, 0o644); err != nil {
+			return fmt.Errorf("export: %w", err)
+		}
+		paths = append(paths, full)
+		return nil
+	}
+	for _, o := range ev.Cells {
+		if o.Status != StatusOK || o.Results == nil {
+			continue
+		}
+		r := o.Results
+		for _, t := range r.Tables {
+			var b bytes.Buffer
+			if err := WriteCSV(&b, t); err != nil {
+				return paths, fmt.Errorf("export: cell %s, table %s: %w", o.ID, t.Name, err)
+			}
+			if err := write(o.ID, t.Name, "csv", b.Bytes()); err != nil {
+				return paths, err
+			}
+		}
+		for _, p := range r.Plots {
+			svg := `<?xml version="1.0" encoding="UTF-8"?>` + "\n" + PlotSVG(p) + "\n"
+			if err := write(o.ID, p.Name, "svg", []byte(svg)); err != nil {
+				return paths, err
+			}
+		}
+		for _, f := range r.Fields {
+			var b bytes.Buffer
+			if err := WriteVTU(&b, f); err != nil {
+				return paths, fmt.Errorf("export: cell %s: %w", o.ID, err)
+			}
+			if err := write(o.ID, f.Name, "vtu", b.Bytes()); err != nil {
+				return paths, err
+			}
+		}
+	}
+	return paths, nil
+}
+
+// fileWord keeps letters, digits, "-" and "_" of s and writes "_" for any
+// other character (cell ids are already safe; result names may hold
+// anything), so that no name can leave the export directory.
+func fileWord(s string) string {
+	var b strings.Builder
+	for _, r := range s {
+		switch {
+		case r >= 'a' && r <= 'z', r >= 'A' && r <= 'Z', r >= '0' && r <= '9', r == '-', r == '_':
+			b.WriteRune(r)
+		default:
+			b.WriteByte('_')
+		}
+	}
+	if b.Len() == 0 {
+		return "result"
+	}
+	return b.String()
+}

@@ -1,0 +1,75 @@
+package notebook
+
+import (
+	"bytes"
+	"context"
+	"encoding/csv"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// RunFile with Export writes one file per table, plot and field of every
+// ok cell, and the CSV holds the same numbers as the results.
+func TestRunFileExport(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "e.gapbook")
+	doc := `{"gapbook":1,"title":"export","cells":[
+	 {"id":"p","kind":"problem","inputs":{"domain":"rectangle","alpha":2}},
+	 {"id":"m","kind":"mesh","inputs":{"problem":"p","cells":4}},
+	 {"id":"s","kind":"solve","inputs":{"mesh":"m"}},
+	 {"id":"chart","kind":"plot","inputs":{"from":"s","x":"step","y":["energy"]}},
+	 {"id":"bad","kind":"problem","inputs":{"f":"sn"}}]}`
+	if err := os.WriteFile(path, []byte(doc), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "out")
+	var log bytes.Buffer
+	_, ok, err := RunFile(context.Background(), path, BatchOptions{Export: out, Stderr: &log})
+	if err != nil || ok {
+		t.Fatalf("ok=%v (want false: cell bad fails) err=%v", ok, err)
+	}
+	for _, name := range []string{"p-problem.csv", "m-mesh.vtu", "s-newton.csv", "s-v.vtu", "chart-plot.svg"} {
+		b, err := os.ReadFile(filepath.Join(out, name))
+		if err != nil {
+			t.Errorf("%s: %v", name, err)
+			continue
+		}
+		switch filepath.Ext(name) {
+		case ".vtu":
+			if !bytes.Contains(b, []byte(`<VTKFile type="UnstructuredGrid"`)) {
+				t.Errorf("%s is not a VTK file", name)
+			}
+		case ".svg":
+			if !bytes.Contains(b, []byte("<svg")) {
+				t.Errorf("%s is not an SVG", name)
+			}
+		}
+	}
+	if !strings.Contains(log.String(), "files written to") {
+		t.Errorf("no export line in %q", log.String())
+	}
+	// The energy column of the CSV against the solve cell's last step.
+	f, _ := os.Open(filepath.Join(out, "s-newton.csv"))
+	defer f.Close()
+	recs, err := csv.NewReader(f).ReadAll()
+	if err != nil || len(recs) < 2 || recs[0][4] != "energy" {
+		t.Fatalf("csv %v %v", recs, err)
+	}
+	last, _ := strconv.ParseFloat(recs[len(recs)-1][4], 64)
+	ev := evalCells(t, kc("p", "problem", map[string]any{"domain": "rectangle", "alpha": 2}),
+		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}), kc("s", "solve", map[string]any{"mesh": "m"}))
+	if want := scalar(t, okCell(t, ev, "s"), "energy").Value; last != want {
+		t.Errorf("CSV energy %v, result %v", last, want)
+	}
+}
+
+func TestFileWord(t *testing.T) {
+	for in, want := range map[string]string{"../../etc": "______etc", "a.b": "a_b", "": "result", "ok-1_x": "ok-1_x", "η_T": "__T"} {
+		if got := fileWord(in); got != want {
+			t.Errorf("fileWord(%q) = %q, want %q", in, got, want)
+		}
+	}
+}
