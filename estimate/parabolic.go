@@ -1,0 +1,676 @@
+package estimate
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+
+	"gapbook/convex"
+	"gapbook/fem"
+)
+
+// ParabolicProblem is the evolution problem (P) of MATH.md §7 as the bounds
+// see it: ∂_t u − div ∂G(∇u) = f, u = u_D on ∂Ω, u(t_0) = U0.
+type ParabolicProblem struct {
+	// G is the potential (required).
+	G convex.Potential
+	// F is f(x, y, t); nil means f = 0.
+	F func(x, y, t float64) float64
+	// U0 is the initial value; nil means 0.
+	U0 func(x, y float64) float64
+}
+
+// FluxKind chooses the reconstruction of y* at each time step.
+type FluxKind int
+
+const (
+	// EquilibratedFlux balances the step load f − ∂_t v in RT_k
+	// (Equilibrate with ParabolicOptions.Equilibrate).
+	EquilibratedFlux FluxKind = iota
+	// AveragedFlux is the nodal average of ∂G(∇v) (NewAveraged): cheap,
+	// with a residual that does not vanish as h → 0.
+	AveragedFlux
+)
+
+// TimeFlux says how y* varies inside a time step (t_{n−1}, t_n).
+type TimeFlux int
+
+const (
+	// ConstantInTime uses one flux y*_n per step, built from v_n against
+	// f(t_n) − ∂_t v (MATH.md §7, the natural choice for implicit Euler).
+	ConstantInTime TimeFlux = iota
+	// LinearInTime interpolates linearly between a flux built from v_{n−1}
+	// against f(t_{n−1}) − ∂_t v and y*_n: two reconstructions per step, a
+	// residual whose time part is O(τ²) and a gap that follows ∇v(t).
+	LinearInTime
+)
+
+// ExactSolution is a known solution u, used only to measure the true error
+// terms (tests, efficiency indices); the bounds never use it.
+type ExactSolution struct {
+	U    func(x, y, t float64) float64
+	Grad func(x, y, t float64) (gx, gy float64)
+	// Split cuts every cell into Split (1-D) or Split² (2-D) sub-cells for
+	// a composite rule of the given Degree (defaults 4 and 8), so that
+	// solutions with a non-smooth front are integrated accurately.
+	Split, Degree int
+	// TimePoints is the Gauss rule in time on each step (default 5).
+	TimePoints int
+}
+
+// ParabolicOptions configure Parabolic.
+type ParabolicOptions struct {
+	// Friedrichs is C_F,α of the domain for the modulus form; zero means
+	// WidthConstant of the mesh.
+	Friedrichs Constant
+	// Modulus replaces the potential's own modulus (its label is inherited).
+	Modulus *convex.Modulus
+	// Kind and InTime choose the flux reconstruction.
+	Kind   FluxKind
+	InTime TimeFlux
+	// Equilibrate configures EquilibratedFlux (Order 1 for RT1).
+	Equilibrate EquilibrateOptions
+	// Degree is the space quadrature degree of the step integrals
+	// (default 6: exact for the gap of an RT1 flux when α = 2).
+	Degree int
+	// TimePoints is the number of Gauss points in time per step (default 3).
+	TimePoints int
+	// InitialSplit and InitialDegree set the composite rule of ½‖e(0)‖²
+	// (defaults 4 and 8).
+	InitialSplit, InitialDegree int
+	// Exact, if set, is used to accumulate the true error terms.
+	Exact *ExactSolution
+}
+
+// ExactTerms are the terms of (P-ID) measured with a known solution, by the
+// composite rule of ExactSolution.
+type ExactTerms struct {
+	// Primal is ∫_Q D_G(∇v, ∂G(∇u)), Dual is ∫_Q D_G(∇u, y*), Final is
+	// ½‖e(T)‖²: their sum is the error measure S(T) the bounds bound.
+	Primal, Dual, Final float64
+	// Initial is ½‖e(0)‖², Gap is ∫_Q D_G(∇v, y*) and Residual is ∫_Q r e:
+	// the right side of (P-ID).
+	Initial, Gap, Residual float64
+	// Sup is the largest S(t_n) over the time grid.
+	Sup float64
+	// L2Final is ‖e(T)‖.
+	L2Final float64
+}
+
+// Total returns S(T) = Primal + Dual + Final.
+func (e ExactTerms) Total() float64 { return e.Primal + e.Dual + e.Final }
+
+// StepPart splits the bound contributed by one time step into the part that
+// refining the mesh reduces and the part that shorter steps reduce.
+type StepPart struct {
+	T0, T1      float64
+	Space, Time float64
+}
+
+// Parabolic accumulates the space-time error bounds of MATH.md §7 step by
+// step: give its Step method to the time stepper (nonlinear.Evolve) and call
+// Bounds at the end. Its memory is that of a few vectors on the mesh plus
+// one StepPart per step.
+type Parabolic struct {
+	s     *fem.P1
+	p     ParabolicProblem
+	o     ParabolicOptions
+	alpha float64
+	conj  float64
+	nb    normBound
+	mod   convex.Modulus
+	// scratch
+	g0, g1, gq [][2]float64
+	d          []float64
+	cpConj     []float64
+	rule       fem.Rule
+	tx, tw     []float64
+	rbuf, wbuf []float64
+	exRule     fem.Rule
+	exTx, exTw []float64
+	// accumulators
+	steps              int
+	t0, t1             float64
+	initial            float64
+	gap                float64
+	pSum, rTil, rQ     float64
+	norms              []float64
+	cumRho, constFree  float64
+	cells              []float64
+	oscCell            []float64
+	parts              []StepPart
+	oscStep, meanStep  []float64
+	exact              ExactTerms
+	primal, dual, gapE float64
+	flux               Flux
+}
+
+// NewParabolic prepares the accumulator for the P1 space s.
+func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic, error) {
+	if s == nil || p.G == nil {
+		return nil, errors.New("parabolic bounds: need a P1 space and a potential")
+	}
+	alpha := p.G.Growth()
+	if o.Friedrichs.Value == 0 {
+		c, err := WidthConstant(s.Mesh, alpha)
+		if err != nil {
+			return nil, fmt.Errorf("parabolic bounds: %w", err)
+		}
+		o.Friedrichs = c
+	}
+	if !(o.Friedrichs.Value > 0) || math.IsInf(o.Friedrichs.Value, 0) {
+		return nil, fmt.Errorf("parabolic bounds: the Friedrichs constant %g is not a positive number", o.Friedrichs.Value)
+	}
+	if o.Degree <= 0 {
+		o.Degree = 6
+	}
+	if o.TimePoints <= 0 {
+		o.TimePoints = 3
+	}
+	if o.InitialSplit <= 0 {
+		o.InitialSplit = 4
+	}
+	if o.InitialDegree <= 0 {
+		o.InitialDegree = 8
+	}
+	if o.Kind != EquilibratedFlux && o.Kind != AveragedFlux {
+		return nil, fmt.Errorf("parabolic bounds: unknown flux kind %d", o.Kind)
+	}
+	if o.InTime != ConstantInTime && o.InTime != LinearInTime {
+		return nil, fmt.Errorf("parabolic bounds: unknown time form %d", o.InTime)
+	}
+	b := &Parabolic{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1)}
+	b.mod = p.G.Modulus()
+	if o.Modulus != nil {
+		b.mod = *o.Modulus
+	}
+	b.nb.alpha = alpha
+	for _, bd := range b.mod.Bounds {
+		if math.Abs(bd.Exponent-alpha) <= 1e-12*alpha {
+			b.nb.bounds = append(b.nb.bounds, bd)
+		}
+	}
+	if len(b.nb.bounds) == 0 {
+		return nil, fmt.Errorf("parabolic bounds: the potential has no modulus in the norm of its growth α = %g; supply one in ParabolicOptions.Modulus", alpha)
+	}
+	b.norms = make([]float64, len(b.nb.bounds))
+	nc, nn := s.Mesh.NumCells(), s.Mesh.NumNodes()
+	b.g0, b.g1, b.gq = make([][2]float64, nc), make([][2]float64, nc), make([][2]float64, nc)
+	b.d = make([]float64, nn)
+	b.cells, b.oscCell = make([]float64, nc), make([]float64, nc)
+	b.cpConj = make([]float64, nc)
+	for k, dk := range s.Mesh.Diameters() {
+		b.cpConj[k] = math.Pow(convex.PoincareConvex(alpha, dk), b.conj)
+	}
+	b.rule = s.Rule(o.Degree)
+	b.rbuf, b.wbuf = make([]float64, b.rule.Len()), make([]float64, b.rule.Len())
+	b.tx, b.tw = fem.Gauss(o.TimePoints, 0, 1)
+	if e := o.Exact; e != nil {
+		if e.U == nil || e.Grad == nil {
+			return nil, errors.New("parabolic bounds: the exact solution needs U and Grad")
+		}
+		ex := *e
+		if ex.Split <= 0 {
+			ex.Split = 4
+		}
+		if ex.Degree <= 0 {
+			ex.Degree = 8
+		}
+		if ex.TimePoints <= 0 {
+			ex.TimePoints = 5
+		}
+		b.o.Exact = &ex
+		b.exRule = CompositeRule(s.Mesh.Dim, ex.Degree, ex.Split)
+		b.exTx, b.exTw = fem.Gauss(ex.TimePoints, 0, 1)
+	}
+	return b, nil
+}
+
+// CompositeRule returns the rule of the given degree on each of the split
+// (1-D) or split² (2-D, uniform red refinement) sub-cells of the reference
+// cell, as one rule on the reference cell (same conventions as fem.Rule).
+func CompositeRule(dim, degree, split int) fem.Rule {
+	split = max(split, 1)
+	if dim == 1 {
+		base := fem.Line(degree)
+		r := fem.Rule{Degree: base.Degree}
+		h := 1 / float64(split)
+		for i := range split {
+			for q, p := range base.Points {
+				r.Points = append(r.Points, [2]float64{(float64(i) + p[0]) * h, 0})
+				r.Weights = append(r.Weights, base.Weights[q]*h)
+			}
+		}
+		return r
+	}
+	base := fem.Triangle(degree)
+	r := fem.Rule{Degree: base.Degree}
+	h := 1 / float64(split)
+	add := func(a, b, c [2]float64) {
+		for q, p := range base.Points {
+			x := a[0] + p[0]*(b[0]-a[0]) + p[1]*(c[0]-a[0])
+			y := a[1] + p[0]*(b[1]-a[1]) + p[1]*(c[1]-a[1])
+			r.Points = append(r.Points, [2]float64{x, y})
+			r.Weights = append(r.Weights, base.Weights[q]*h*h)
+		}
+	}
+	for i := range split {
+		for j := range split - i {
+			x, y := float64(i)*h, float64(j)*h
+			add([2]float64{x, y}, [2]float64{x + h, y}, [2]float64{x, y + h})
+			if i+j < split-1 {
+				add([2]float64{x + h, y}, [2]float64{x + h, y + h}, [2]float64{x, y + h})
+			}
+		}
+	}
+	return r
+}
+
+// powAbs returns |x|^q with the common q = 2 without a call to Pow.
+func powAbs(x, q float64) float64 {
+	if q == 2 {
+		return x * x
+	}
+	return math.Pow(math.Abs(x), q)
+}
+
+// Step adds the time step (t0, t1) with v(t0) = v0 and v(t1) = v1 (nodal
+// values, v linear in time between them): it reconstructs y* and adds the
+// step's integrals by Gauss rules in time. It has the signature of the
+// per-step callback of nonlinear.Evolve; steps must come in order.
+func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) error {
+	s := b.s
+	nn := s.Mesh.NumNodes()
+	if len(v0) != nn || len(v1) != nn {
+		return fmt.Errorf("parabolic bounds: v has %d and %d values for %d nodes", len(v0), len(v1), nn)
+	}
+	if !(t1 > t0) {
+		return fmt.Errorf("parabolic bounds: step (%g, %g) is empty or reversed", t0, t1)
+	}
+	if b.steps == 0 {
+		b.t0 = t0
+		b.initial = b.initialError(v0)
+		b.exact.Initial = b.initial
+	} else if math.Abs(t0-b.t1) > 1e-12*math.Max(1, math.Abs(t0)) {
+		return fmt.Errorf("parabolic bounds: step starts at %g but the previous one ended at %g", t0, b.t1)
+	}
+	tau := t1 - t0
+	for i := range b.d {
+		b.d[i] = (v1[i] - v0[i]) / tau
+	}
+	s.Gradient(v0, b.g0)
+	s.Gradient(v1, b.g1)
+	yb, err := b.reconstruct(ctx, v1, t1)
+	if err != nil {
+		return err
+	}
+	ya := yb
+	if b.o.InTime == LinearInTime {
+		if ya, err = b.reconstruct(ctx, v0, t0); err != nil {
+			return err
+		}
+	}
+	part := b.slab(t0, tau, ya, yb)
+	if b.o.Exact != nil {
+		b.exactSlab(t0, tau, v0, v1, ya, yb)
+	}
+	b.parts = append(b.parts, part)
+	b.steps++
+	b.t1 = t1
+	b.flux = yb
+	return nil
+}
+
+// reconstruct builds y* from v against the load f(t) − ∂_t v.
+func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Flux, error) {
+	if b.o.Kind == AveragedFlux {
+		return NewAveraged(b.s, b.p.G, v)
+	}
+	m := b.s.Mesh
+	nv := m.Dim + 1
+	f := b.p.F
+	src := func(k int, lam [3]float64) float64 {
+		c := m.Cells[k]
+		var dt float64
+		for a := range nv {
+			dt += lam[a] * b.d[c[a]]
+		}
+		if f == nil {
+			return -dt
+		}
+		x, y := eqPoint(m, k, lam)
+		return f(x, y, t) - dt
+	}
+	e, err := Equilibrate(ctx, b.s, b.p.G, v, src, b.o.Equilibrate)
+	if err != nil {
+		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t, err)
+	}
+	return e, nil
+}
+
+// slab integrates one step by the Gauss rule in time and the space rule:
+// the gap, the residual norms, the Bregman change of ∇v (time indicator).
+func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
+	s := b.s
+	m := s.Mesh
+	dim, nv := m.Dim, m.Dim+1
+	G, q, cf := b.p.G, b.conj, b.o.Friedrichs.Value
+	part := StepPart{T0: t0, T1: t0 + tau}
+	var slabRho, slabGap, slabOsc, slabMean, bregman float64
+	for iq, sq := range b.tx {
+		t := t0 + sq*tau
+		wt := tau * b.tw[iq]
+		var dq, rho2, mean2, oscA, resA, meanA float64
+		for k, c := range m.Cells {
+			g := [2]float64{(1-sq)*b.g0[k][0] + sq*b.g1[k][0], (1-sq)*b.g0[k][1] + sq*b.g1[k][1]}
+			b.gq[k] = g
+			var dk, mk, wk float64
+			for iq2, pt := range b.rule.Points {
+				lam, scale := cellPoint(dim, pt)
+				w := b.rule.Weights[iq2] * scale * s.Area[k]
+				y, div := yb.At(k, lam)
+				if ya != yb {
+					y0, d0 := ya.At(k, lam)
+					y = [2]float64{(1-sq)*y0[0] + sq*y[0], (1-sq)*y0[1] + sq*y[1]}
+					div = (1-sq)*d0 + sq*div
+				}
+				var dv float64
+				for a := range nv {
+					dv += lam[a] * b.d[c[a]]
+				}
+				r := div - dv
+				if b.p.F != nil {
+					x, yy := physical(s, k, lam)
+					r += b.p.F(x, yy, t)
+				}
+				dk += w * convex.Gap(G, g, y)
+				b.rbuf[iq2], b.wbuf[iq2] = r, w
+				mk += w * r
+				wk += w
+			}
+			mk /= wk
+			var r2, ra, oa float64
+			for i, r := range b.rbuf {
+				r2 += b.wbuf[i] * r * r
+				ra += b.wbuf[i] * powAbs(r, q)
+				oa += b.wbuf[i] * powAbs(r-mk, q)
+			}
+			dq += dk
+			rho2 += r2
+			mean2 += s.Area[k] * mk * mk
+			oscA += b.cpConj[k] * oa
+			resA += ra
+			meanA += s.Area[k] * powAbs(mk, q)
+			b.cells[k] += wt * dk
+			b.oscCell[k] += wt * b.cpConj[k] * oa
+			bregman += wt * s.Area[k] * convex.Gap(G, g, convex.Flux(G, b.g1[k]))
+		}
+		for i, bd := range b.nb.bounds {
+			var n float64
+			for k, g := range b.gq {
+				n += s.Area[k] * math.Pow(bd.Weight(g), b.alpha)
+			}
+			b.norms[i] += wt * n
+		}
+		rosc := math.Pow(oscA, 1/q)
+		rq := math.Min(cf*math.Pow(resA, 1/q), rosc+cf*math.Pow(meanA, 1/q))
+		slabGap += wt * dq
+		slabRho += wt * math.Sqrt(rho2)
+		slabMean += wt * math.Sqrt(mean2)
+		slabOsc += wt * oscA
+		b.rQ += wt * math.Pow(rq, q)
+	}
+	b.gap += slabGap
+	b.pSum += slabMean
+	b.rTil += slabOsc
+	// Constant-free form: ∫_slab ρ (√(2A(t)) + ∫_0^t ρ) ≤ ρ_n (√(2A(t_n)) +
+	// ∫_0^{t_{n−1}} ρ) + ρ_n²/2 with ρ_n = ∫_slab ρ, A nondecreasing.
+	b.constFree += slabRho*(math.Sqrt(2*(b.gap+b.initial))+b.cumRho) + slabRho*slabRho/2
+	b.cumRho += slabRho
+	part.Time = math.Min(bregman, slabGap)
+	part.Space = slabGap - part.Time
+	b.oscStep = append(b.oscStep, slabOsc)
+	b.meanStep = append(b.meanStep, slabMean)
+	return part
+}
+
+// initialError returns ½‖u0 − v0‖² by the composite initial rule.
+func (b *Parabolic) initialError(v0 []float64) float64 {
+	s := b.s
+	m := s.Mesh
+	r := CompositeRule(m.Dim, b.o.InitialDegree, b.o.InitialSplit)
+	var sum float64
+	for k, c := range m.Cells {
+		for iq, pt := range r.Points {
+			lam, scale := cellPoint(m.Dim, pt)
+			var v float64
+			for a := range m.Dim + 1 {
+				v += lam[a] * v0[c[a]]
+			}
+			u := 0.0
+			if b.p.U0 != nil {
+				x, y := physical(s, k, lam)
+				u = b.p.U0(x, y)
+			}
+			sum += r.Weights[iq] * scale * s.Area[k] * (u - v) * (u - v)
+		}
+	}
+	return sum / 2
+}
+
+// exactSlab adds the true error terms of one step.
+func (b *Parabolic) exactSlab(t0, tau float64, v0, v1 []float64, ya, yb Flux) {
+	s := b.s
+	m := s.Mesh
+	dim, nv := m.Dim, m.Dim+1
+	G, ex := b.p.G, b.o.Exact
+	r := b.exRule
+	for iq, sq := range b.exTx {
+		t := t0 + sq*tau
+		wt := tau * b.exTw[iq]
+		for k, c := range m.Cells {
+			g := [2]float64{(1-sq)*b.g0[k][0] + sq*b.g1[k][0], (1-sq)*b.g0[k][1] + sq*b.g1[k][1]}
+			for i, pt := range r.Points {
+				lam, scale := cellPoint(dim, pt)
+				w := wt * r.Weights[i] * scale * s.Area[k]
+				x, yy := physical(s, k, lam)
+				y, div := yb.At(k, lam)
+				if ya != yb {
+					y0, d0 := ya.At(k, lam)
+					y = [2]float64{(1-sq)*y0[0] + sq*y[0], (1-sq)*y0[1] + sq*y[1]}
+					div = (1-sq)*d0 + sq*div
+				}
+				var dv, v float64
+				for a := range nv {
+					dv += lam[a] * b.d[c[a]]
+					v += lam[a] * ((1-sq)*v0[c[a]] + sq*v1[c[a]])
+				}
+				res := div - dv
+				if b.p.F != nil {
+					res += b.p.F(x, yy, t)
+				}
+				u := ex.U(x, yy, t)
+				gx, gy := ex.Grad(x, yy, t)
+				if dim == 1 {
+					gy = 0
+				}
+				gu := [2]float64{gx, gy}
+				b.primal += w * convex.Gap(G, g, convex.Flux(G, gu))
+				b.dual += w * convex.Gap(G, gu, y)
+				b.gapE += w * convex.Gap(G, g, y)
+				b.exact.Residual += w * res * (u - v)
+			}
+		}
+	}
+	// ½‖e(t1)‖².
+	var e2 float64
+	t1 := t0 + tau
+	for k, c := range m.Cells {
+		for i, pt := range r.Points {
+			lam, scale := cellPoint(dim, pt)
+			x, yy := physical(s, k, lam)
+			var v float64
+			for a := range nv {
+				v += lam[a] * v1[c[a]]
+			}
+			d := ex.U(x, yy, t1) - v
+			e2 += r.Weights[i] * scale * s.Area[k] * d * d
+		}
+	}
+	b.exact.Primal, b.exact.Dual, b.exact.Gap = b.primal, b.dual, b.gapE
+	b.exact.Final = e2 / 2
+	b.exact.L2Final = math.Sqrt(e2)
+	b.exact.Sup = math.Max(b.exact.Sup, b.exact.Total())
+}
+
+// ParabolicResult holds the bounds of MATH.md §7 after the last step.
+type ParabolicResult struct {
+	// Steps is the number of time steps, T0 and T the time window.
+	Steps int
+	T0, T float64
+	// Initial is ½‖e(0)‖², Gap is ∫_Q D_G(∇v, y*), A = Gap + Initial.
+	Initial, Gap, A float64
+	// P = ∫ ‖Π0 r‖_2 dt, RTilde = (∫ R_osc^{α'} dt)^{1/α'} and RQ the
+	// space-time residual factor (∫ R(t)^{α'} dt)^{1/α'} of the modulus form,
+	// R(t) = min(C_F‖r‖_{α'}, R_osc + C_F‖Π0 r‖_{α'}) (MATH.md §4 at each t).
+	P, RTilde, RQ float64
+	// Split is (P-MAJ): the largest root of s = A + R̃ X_Q(s) + P√(2s), a
+	// bound of sup_t S(t), S = μ_Q + μ*_Q + ½‖e‖² on (0, t).
+	Split Number
+	// Modulus is the largest root of s = A + R_Q X_Q(s) (global Friedrichs
+	// constant; for the α ≥ 2 type it is the Young form at its best θ,
+	// reported in Theta).
+	Modulus Number
+	Theta   float64
+	// ConstantFree is the Gronwall–Bihari bound A(T) + ∫ρ(√(2A) + ∫ρ) of
+	// S(T), ρ = ‖r‖_2: no modulus, no constant.
+	ConstantFree Number
+	// Norm bounds ‖∇(u − v)‖_{L^α(Q)} by X_Q of the split bound, and Final
+	// bounds max_t ‖e(t)‖ by √(2 Split).
+	Norm, Final Number
+	// Cells are space indicators per cell (gap plus oscillation, summed over
+	// the steps); Parts split each step's share of Split − Initial into a
+	// space and a time part, and Space, Time total them.
+	Cells       []float64
+	Parts       []StepPart
+	Space, Time float64
+	// Exact holds the true error terms when an exact solution was given.
+	Exact *ExactTerms
+	Label convex.Label
+	// Assumptions apply to every guaranteed number.
+	Assumptions []string
+}
+
+// largestRoot returns the largest s ≥ 0 with s = a + h(s), where h(s)/s
+// decreases, by bracketing and bisection (the upper end is returned).
+func largestRoot(a float64, h func(float64) float64) (float64, error) {
+	phi := func(s float64) float64 { return s - a - h(s) }
+	if h(math.Max(a, 1)) == 0 {
+		return a, nil // no residual term
+	}
+	lo, hi := a, math.Max(2*a, 1e-300)
+	for phi(hi) <= 0 {
+		lo, hi = hi, 2*hi
+		if math.IsInf(hi, 1) {
+			return 0, errors.New("parabolic bounds: the majorant overflows; the residual is too large for these data")
+		}
+	}
+	for i := 0; i < 400 && hi-lo > 1e-15*hi; i++ {
+		mid := lo + 0.5*(hi-lo)
+		if phi(mid) <= 0 {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	return hi, nil
+}
+
+// Bounds returns the bounds after the steps so far: (P-MAJ), the modulus
+// form with the global Friedrichs constant and the constant-free form
+// (MATH.md §7), with the indicators.
+func (b *Parabolic) Bounds() (*ParabolicResult, error) {
+	if b.steps == 0 {
+		return nil, errors.New("parabolic bounds: no time step yet")
+	}
+	q := b.conj
+	nb := b.nb
+	nb.n = make([]float64, len(b.norms))
+	for i, n := range b.norms {
+		nb.n[i] = math.Pow(n, 1/b.alpha)
+	}
+	r := &ParabolicResult{Steps: b.steps, T0: b.t0, T: b.t1, Initial: b.initial, Gap: b.gap,
+		A: b.gap + b.initial, P: b.pSum, RTilde: math.Pow(b.rTil, 1/q), RQ: math.Pow(b.rQ, 1/q)}
+	X := func(s float64) float64 { x, _ := nb.X(s); return x }
+	split, err := largestRoot(r.A, func(s float64) float64 { return r.RTilde*X(s) + r.P*math.Sqrt(2*s) })
+	if err != nil {
+		return nil, err
+	}
+	modf, err := largestRoot(r.A, func(s float64) float64 { return r.RQ * X(s) })
+	if err != nil {
+		return nil, err
+	}
+	label := convex.Guaranteed
+	if b.mod.Label != convex.Guaranteed {
+		label = convex.Estimate
+	}
+	modLabel := label
+	if b.o.Friedrichs.Label != convex.Guaranteed {
+		modLabel = convex.Estimate
+	}
+	r.Label = label
+	r.Assumptions = []string{
+		"space integrals by a rule of degree " + strconv.Itoa(b.o.Degree) + ", " + strconv.Itoa(b.o.TimePoints) + " Gauss points in time per step",
+		"½‖e(0)‖² by a composite rule of degree " + strconv.Itoa(b.o.InitialDegree) + " on " + strconv.Itoa(b.o.InitialSplit) + " sub-cells per edge",
+		"v equals u_D on the boundary at all times (P1 data, linear in time per step)",
+		"modulus " + b.mod.Label.String(),
+	}
+	num := func(v float64, l convex.Label, extra ...string) Number {
+		return Number{Value: v, Label: l, Assumptions: append(append([]string(nil), r.Assumptions...), extra...)}
+	}
+	fr := "Friedrichs constant " + strconv.FormatFloat(b.o.Friedrichs.Value, 'g', 6, 64) + " (" + b.o.Friedrichs.Label.String() + ", " + b.o.Friedrichs.Method + ")"
+	r.Split = num(split, label)
+	r.Modulus = num(modf, modLabel, fr)
+	x, which := nb.X(modf)
+	r.Theta = r.RQ * nb.slope(which, modf, x)
+	if r.RQ == 0 {
+		r.Theta = 0
+	}
+	r.ConstantFree = Number{Value: r.A + b.constFree, Label: convex.Guaranteed, Assumptions: r.Assumptions[:3]}
+	r.Norm = num(X(split), label)
+	r.Final = num(math.Sqrt(2*split), label)
+	// Indicators: the residual terms of (P-MAJ) shared over the steps by
+	// their oscillation (space) and mean (time) parts.
+	oscTotal, meanTotal := r.RTilde*X(split), r.P*math.Sqrt(2*split)
+	r.Parts = append([]StepPart(nil), b.parts...)
+	for n := range r.Parts {
+		if b.rTil > 0 {
+			r.Parts[n].Space += oscTotal * b.oscStep[n] / b.rTil
+		}
+		if b.pSum > 0 {
+			r.Parts[n].Time += meanTotal * b.meanStep[n] / b.pSum
+		}
+		r.Space += r.Parts[n].Space
+		r.Time += r.Parts[n].Time
+	}
+	r.Cells = append([]float64(nil), b.cells...)
+	var oscSum float64
+	for _, o := range b.oscCell {
+		oscSum += o
+	}
+	if oscSum > 0 {
+		for k := range r.Cells {
+			r.Cells[k] += oscTotal * b.oscCell[k] / oscSum
+		}
+	}
+	if b.o.Exact != nil {
+		e := b.exact
+		r.Exact = &e
+	}
+	return r, nil
+}
+
+// LastFlux returns the flux y*_n of the latest step (nil before the first).
+func (b *Parabolic) LastFlux() Flux { return b.flux }

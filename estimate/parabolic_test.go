@@ -1,0 +1,225 @@
+package estimate
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"testing"
+
+	"gapbook/convex"
+	"gapbook/fem"
+	"gapbook/mesh"
+	"gapbook/nonlinear"
+)
+
+// parCase is one evolution problem with a known solution. Its boundary
+// values must be linear in time (and in space along boundary edges), so
+// that v = u on ∂Ω at all times, as (P-ID) requires.
+type parCase struct {
+	name   string
+	alpha  float64
+	dim    int
+	n      int // cells per direction
+	steps  int
+	t0, t1 float64
+	u      string // exact solution u(x, y, t); its source by automatic differentiation
+}
+
+// parRun solves c with Evolve and accumulates the bounds with the exact
+// solution measured alongside.
+func parRun(t testing.TB, c parCase, o ParabolicOptions) (*ParabolicResult, *nonlinear.EvolveResult, *fem.P1) {
+	t.Helper()
+	G := must(convex.Power(c.alpha))
+	man := must(nonlinear.Manufacture(c.u, G))
+	exact := man.Clone()
+	var m *mesh.Mesh
+	if c.dim == 1 {
+		m = must(mesh.Interval(0, 1, c.n))
+	} else {
+		m = must(mesh.Rectangle(0, 1, 0, 1, c.n, c.n))
+	}
+	s := must(fem.NewP1(m))
+	f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
+	uD := func(x, y, t float64) float64 { return man.U(x, y, t) }
+	u0 := func(x, y float64) float64 { return man.U(x, y, c.t0) }
+	o.Exact = &ExactSolution{U: exact.U, Grad: exact.Grad, Split: 2}
+	pb := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, o))
+	ev, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: f, Dirichlet: uD, U0: u0,
+		T0: c.t0, T: c.t1, Steps: c.steps}, nonlinear.EvolveOptions{Newton: nonlinear.Options{ResTol: 1e-12}}, pb.Step)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return must(pb.Bounds()), ev, s
+}
+
+var parCases = []parCase{
+	{"heat/1d", 2, 1, 16, 8, 0, 0.5, "sin(pi*x)*exp(-t)"},
+	{"heat/2d", 2, 2, 8, 4, 0, 0.25, "sin(pi*x)*sin(pi*y)*exp(-t) + x*t"},
+	{"p=1.5/1d", 1.5, 1, 16, 8, 0, 0.5, "(1+t)*x + 0.25*exp(-t)*sin(pi*x)"},
+	{"p=3/1d", 3, 1, 16, 8, 0, 0.5, "(1+t)*x + 0.25*exp(-t)*sin(pi*x)"},
+	{"p=3/2d", 3, 2, 8, 4, 0, 0.25, "(1+t)*(x + 0.5*y) + exp(-t)*x*(1-x)*y*(1-y)"},
+}
+
+var parFluxes = []struct {
+	name string
+	o    ParabolicOptions
+}{
+	{"averaged", ParabolicOptions{Kind: AveragedFlux}},
+	{"rt0", ParabolicOptions{}},
+	{"rt1/linear", ParabolicOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}}},
+}
+
+// TestParabolicIdentity checks (P-ID) of MATH.md §7 (CHECKS.md item 15:
+// an identity, [D]) for manufactured solutions and fluxes that are not
+// equilibrated (averaged) or only balanced against Π_k of the load: both
+// sides by the same composite space-time rule must agree to quadrature
+// accuracy, the gap integral of the bounds must agree with the exact pass,
+// and every majorant must lie above the true error measure S(T) and above
+// S(t_n) at every step.
+func TestParabolicIdentity(t *testing.T) {
+	for _, c := range parCases {
+		for _, fl := range parFluxes {
+			t.Run(c.name+"/"+fl.name, func(t *testing.T) {
+				r, _, _ := parRun(t, c, fl.o)
+				e := r.Exact
+				lhs := e.Primal + e.Dual + e.Final
+				rhs := e.Gap + e.Initial + e.Residual
+				if d := math.Abs(lhs - rhs); d > 1e-8*(math.Abs(lhs)+math.Abs(rhs)) {
+					t.Errorf("(P-ID): left %.12e, right %.12e (gap %.3e, initial %.3e, ∫re %.3e)", lhs, rhs, e.Gap, e.Initial, e.Residual)
+				}
+				if math.Abs(r.Gap-e.Gap) > 1e-5*e.Gap {
+					t.Errorf("gap integral %.10e, by the reference rule %.10e", r.Gap, e.Gap)
+				}
+				for _, b := range []struct {
+					name string
+					v    float64
+				}{{"split", r.Split.Value}, {"modulus", r.Modulus.Value}, {"constant-free", r.ConstantFree.Value}} {
+					if !(b.v >= lhs) || !(b.v >= e.Sup) {
+						t.Errorf("%s majorant %.6e below the error measure S(T) = %.6e (sup %.6e)", b.name, b.v, lhs, e.Sup)
+					}
+				}
+				if !(r.Final.Value >= e.L2Final) {
+					t.Errorf("bound of ‖e(T)‖ %.6e below the error %.6e", r.Final.Value, e.L2Final)
+				}
+				// MATH.md §7 sets the aim I_eff ≤ 2 (α = 2) and ≤ 5 (α = 3)
+				// for (P-MAJ) with RT1 and y* linear in time.
+				if fl.o.InTime == LinearInTime && r.Split.Value > 2*lhs {
+					t.Errorf("efficiency index of (P-MAJ) %.3f above 2", r.Split.Value/lhs)
+				}
+				t.Logf("S = %.3e  Ieff split %.2f  modulus %.2f  const-free %.2f  (θ = %.2f)", lhs, r.Split.Value/lhs, r.Modulus.Value/lhs, r.ConstantFree.Value/lhs, r.Theta)
+			})
+		}
+	}
+}
+
+// TestParabolicHypercircle checks the parabolic hypercircle identity
+// ‖∇e‖²_Q + ‖∇u − y‖²_Q + ‖e(T)‖² = ‖∇v − y‖²_Q + ‖e(0)‖² (CHECKS.md item
+// 14, [D]) for the heat equation with f = 0: y*_n in RT1 is balanced
+// against −∂_t v, a P1 field that Π1 reproduces, so r = f − ∂_t v + div y*
+// vanishes identically when y* is constant in time on each step. Then the
+// residual terms of the bounds vanish too and (P-MAJ) equals A.
+func TestParabolicHypercircle(t *testing.T) {
+	for _, c := range []parCase{
+		{"1d", 2, 1, 12, 6, 0, 0.1, "sin(pi*x)*exp(-pi^2*t)"},
+		{"2d", 2, 2, 6, 3, 0, 0.05, "sin(pi*x)*sin(pi*y)*exp(-2*pi^2*t)"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			r, _, _ := parRun(t, c, ParabolicOptions{Equilibrate: EquilibrateOptions{Order: 1}})
+			e := r.Exact
+			lhs := 2 * (e.Primal + e.Dual + e.Final)
+			rhs := 2 * (e.Gap + e.Initial)
+			if math.Abs(lhs-rhs) > 1e-9*rhs {
+				t.Errorf("hypercircle: %.14e vs %.14e", lhs, rhs)
+			}
+			if math.Abs(e.Residual) > 1e-12*rhs {
+				t.Errorf("∫ r e = %.3e, expected 0", e.Residual)
+			}
+			if r.P > 1e-10*math.Sqrt(rhs) || r.RTilde > 1e-10*math.Sqrt(rhs) {
+				t.Errorf("residual factors P = %.3e, R̃ = %.3e, expected 0", r.P, r.RTilde)
+			}
+			if math.Abs(r.Split.Value-r.A) > 1e-9*r.A {
+				t.Errorf("split majorant %.12e, A = %.12e", r.Split.Value, r.A)
+			}
+		})
+	}
+}
+
+// TestParabolicInput checks that bad input gives errors, not panics.
+func TestParabolicInput(t *testing.T) {
+	G := must(convex.Power(2))
+	m := must(mesh.Interval(0, 1, 4))
+	s := must(fem.NewP1(m))
+	if _, err := NewParabolic(nil, ParabolicProblem{G: G}, ParabolicOptions{}); err == nil {
+		t.Error("no space: no error")
+	}
+	if _, err := NewParabolic(s, ParabolicProblem{G: G}, ParabolicOptions{Kind: 7}); err == nil {
+		t.Error("unknown flux kind: no error")
+	}
+	pb := must(NewParabolic(s, ParabolicProblem{G: G}, ParabolicOptions{}))
+	if _, err := pb.Bounds(); err == nil {
+		t.Error("bounds before any step: no error")
+	}
+	v := make([]float64, m.NumNodes())
+	if err := pb.Step(context.Background(), 0, 0, v, v); err == nil {
+		t.Error("empty step: no error")
+	}
+	if err := pb.Step(context.Background(), 0, 1, v[:2], v); err == nil {
+		t.Error("short vector: no error")
+	}
+	if err := pb.Step(context.Background(), 0, 1, v, v); err != nil {
+		t.Fatal(err)
+	}
+	if err := pb.Step(context.Background(), 2, 3, v, v); err == nil {
+		t.Error("gap in the time grid: no error")
+	}
+	r := must(pb.Bounds())
+	if r.Split.Value != 0 || r.ConstantFree.Value != 0 {
+		t.Errorf("v = u = 0: bounds %v, %v, expected 0", r.Split, r.ConstantFree)
+	}
+}
+
+// TestCompositeRule checks the composite rules against exact monomial
+// integrals on the reference cells (∫ x^i y^j = i! j!/(i + j + 2)! on the
+// triangle, CHECKS.md item 16; 1/(i + 1) on the interval) and that a kink
+// at a sub-cell edge is integrated exactly.
+func TestCompositeRule(t *testing.T) {
+	fact := func(n int) float64 { return math.Gamma(float64(n) + 1) }
+	for _, split := range []int{1, 2, 3} {
+		r := CompositeRule(2, 5, split)
+		for i := 0; i <= 5; i++ {
+			for j := 0; i+j <= 5; j++ {
+				var s float64
+				for q, p := range r.Points {
+					s += r.Weights[q] * math.Pow(p[0], float64(i)) * math.Pow(p[1], float64(j))
+				}
+				if want := fact(i) * fact(j) / fact(i+j+2); math.Abs(s-want) > 1e-14 {
+					t.Errorf("split %d: ∫x^%d y^%d = %.16g, want %.16g", split, i, j, s, want)
+				}
+			}
+		}
+		l := CompositeRule(1, 3, 2*split)
+		var s float64
+		for q, p := range l.Points {
+			s += l.Weights[q] * math.Abs(p[0]-0.5)
+		}
+		if math.Abs(s-0.25) > 1e-15 {
+			t.Errorf("1-D split %d: ∫|x − ½| = %.16g, want 0.25", 2*split, s)
+		}
+	}
+}
+
+func ExampleParabolic() {
+	G, _ := convex.Power(2)
+	m, _ := mesh.Interval(0, 1, 32)
+	s, _ := fem.NewP1(m)
+	u0 := func(x, _ float64) float64 { return math.Sin(math.Pi * x) }
+	pb, _ := NewParabolic(s, ParabolicProblem{G: G, U0: u0}, ParabolicOptions{Equilibrate: EquilibrateOptions{Order: 1}})
+	_, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, U0: u0, T: 0.1, Steps: 10}, nonlinear.EvolveOptions{}, pb.Step)
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	r, _ := pb.Bounds()
+	fmt.Printf("S(T) ≤ %.2e (%v)\n", r.Split.Value, r.Split.Label)
+	// Output: S(T) ≤ 4.09e-04 (guaranteed)
+}
