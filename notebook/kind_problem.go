@@ -174,6 +174,47 @@ func (p *ProblemSpec) Source() func(x, y float64) float64 {
 	return eval2(p.f, 0)
 }
 
+func eval3(f *expr.Formula) func(x, y, t float64) float64 {
+	if f == nil {
+		return nil
+	}
+	f = f.Clone()
+	var q [3]float64
+	return func(x, y, t float64) float64 {
+		q = [3]float64{x, y, t}
+		return f.Eval(q[:])
+	}
+}
+
+// Source3 returns f(x, y, t) for evolution; each call gives a function
+// with its own scratch space.
+func (p *ProblemSpec) Source3() func(x, y, t float64) float64 {
+	if p.derived {
+		return p.Manufactured().Source
+	}
+	return eval3(p.f)
+}
+
+// Dirichlet3 returns u_D(x, y, t) (nil for zero data).
+func (p *ProblemSpec) Dirichlet3() func(x, y, t float64) float64 {
+	if p.uD != nil {
+		return eval3(p.uD)
+	}
+	if p.exact != nil {
+		return p.Manufactured().U
+	}
+	return nil
+}
+
+// Initial returns u0(x, y): the u0 formula, else the exact solution at
+// t = 0, else nil (zero).
+func (p *ProblemSpec) Initial() func(x, y float64) float64 {
+	if p.u0 != nil {
+		return eval2(p.u0, 0)
+	}
+	return eval2(p.exact, 0)
+}
+
 // Dirichlet returns u_D(x, y) (nil for zero data).
 func (p *ProblemSpec) Dirichlet() func(x, y float64) float64 {
 	if p.uD != nil {

@@ -1,0 +1,138 @@
+package notebook
+
+import (
+	"fmt"
+
+	"gapbook/estimate"
+	"gapbook/fem"
+	"gapbook/nonlinear"
+)
+
+func init() { Register(evolveKind{}) }
+
+// evolveKind integrates the evolution problem in time and accumulates the
+// space-time bounds of MATH.md §7 step by step.
+type evolveKind struct{}
+
+// Time forms of the flux offered by the evolve kind.
+const (
+	timeLinear   = "linear in time"
+	timeConstant = "constant in time"
+)
+
+func (evolveKind) Name() string { return "evolve" }
+func (evolveKind) Doc() string {
+	return "The evolution ∂_t u − div ∂G(∇u) = f from u0 up to the problem's time horizon T, by implicit Euler steps, with guaranteed bounds of the space-time error and of the error at every time."
+}
+func (evolveKind) Inputs() []Input {
+	return []Input{
+		{Name: "mesh", Type: Ref, RefKinds: []string{"mesh"}, Doc: "id of the mesh cell (its problem needs a time horizon T > 0)"},
+		{Name: "steps", Type: Integer, Default: 20, Low: AtLeast(1), High: AtMost(100000), Doc: "number of equal implicit Euler steps over (0, T)"},
+		{Name: "flux", Type: Choice, Default: fluxEquilibrated, Choices: []string{fluxEquilibrated, fluxAveraged},
+			Doc: "the flux y* at each step: equilibrated (balances f − ∂_t v on every cell; sharp) or averaged (cheap, bounds do not converge)"},
+		{Name: "order", Type: Integer, Default: 1, Low: AtLeast(0), High: AtMost(1),
+			Doc: "Raviart–Thomas order of the equilibrated flux (1 lets div y* match the linear ∂_t v on each cell)"},
+		{Name: "in_time", Type: Choice, Default: timeLinear, Choices: []string{timeLinear, timeConstant},
+			Doc: "how y* varies inside a step: linear between the two ends (two reconstructions per step, sharper) or constant"},
+		{Name: "tolerance", Type: Number, Default: 1e-10, Low: Above(0), High: Below(1), Doc: "Newton tolerance of each step"},
+		{Name: "max_newton", Type: Integer, Default: 60, Low: AtLeast(1), High: AtMost(1000), Doc: "largest number of Newton steps per time step"},
+	}
+}
+
+func (evolveKind) Evaluate(c *Context, in Values) (*Results, error) {
+	d, ok := c.Object(in.Text("mesh"), "mesh").(*Discretisation)
+	if !ok {
+		return nil, FieldErr("mesh", "cell %s is not a mesh cell", in.Text("mesh"))
+	}
+	p := d.Problem
+	if !(p.T > 0) {
+		return nil, FieldErr("mesh", "problem %s has no time horizon; set its input T > 0", p.Cell)
+	}
+	if len(p.G.Modulus().Bounds) == 0 {
+		return nil, FieldErr("mesh", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Cell)
+	}
+	m := d.Mesh
+	sp, err := fem.NewP1(m)
+	if err != nil {
+		return nil, FieldErr("mesh", "%v", err)
+	}
+	po := estimate.ParabolicOptions{InTime: estimate.LinearInTime,
+		Equilibrate: estimate.EquilibrateOptions{Order: in.Int("order")}}
+	if in.Text("flux") == fluxAveraged {
+		po.Kind = estimate.AveragedFlux
+	}
+	if in.Text("in_time") == timeConstant {
+		po.InTime = estimate.ConstantInTime
+	}
+	cf, err := friedrichs(c, m, p.Alpha, constBest)
+	if err != nil {
+		return nil, err
+	}
+	po.Friedrichs = cf
+	if mf := p.Manufactured(); mf != nil {
+		mg := p.Manufactured()
+		po.Exact = &estimate.ExactSolution{U: mf.U, Grad: mg.Grad, Split: 2, TimePoints: 3}
+	}
+	f3, uD3, u0 := p.Source3(), p.Dirichlet3(), p.Initial()
+	b, err := estimate.NewParabolic(sp, estimate.ParabolicProblem{G: p.G, F: f3, U0: u0}, po)
+	if err != nil {
+		return nil, FieldErr("mesh", "%v", err)
+	}
+	steps := in.Int("steps")
+	ev := nonlinear.Evolution{G: p.G, F: f3, Dirichlet: uD3, U0: u0, T0: 0, T: p.T, Steps: steps}
+	var table Table
+	table = Table{Name: "steps", Title: "time steps", Columns: []Column{{Name: "t"}, {Name: "newton"}, {Name: "cg"}}}
+	run, err := nonlinear.Evolve(c.Context(), m, ev, nonlinear.EvolveOptions{
+		Newton: nonlinear.Options{Tol: in.Number("tolerance"), MaxIter: in.Int("max_newton")},
+		Progress: func(st nonlinear.EvolveStep) {
+			table.Rows = append(table.Rows, []float64{st.T1, float64(st.Newton), float64(st.CG)})
+			c.Progress(float64(st.N)/float64(st.Steps), fmt.Sprintf("step %d of %d, t = %.4g", st.N, st.Steps, st.T1))
+		}}, b.Step)
+	if err != nil {
+		if e := c.Err(); e != nil {
+			return nil, e
+		}
+		return nil, FieldErr("steps", "%v", err)
+	}
+	r, err := b.Bounds()
+	if err != nil {
+		return nil, FieldErr("steps", "%v", err)
+	}
+	lab := convexLabel(r.Label)
+	res := &Results{Scalars: []Scalar{
+		{Name: "bound", Value: r.Split.Value, Label: lab, Unit: "sup_t S(t) ≤ bound, S = ∫ D_G(∇v, ∂G(∇u)) + ∫ D_G(∇u, y*) + ½‖e(t)‖² over (0, t)"},
+		{Name: "modulus_bound", Value: r.Modulus.Value, Label: convexLabel(r.Modulus.Label), Unit: "the same with the global Friedrichs constant"},
+		{Name: "constant_free", Value: r.ConstantFree.Value, Label: convexLabel(r.ConstantFree.Label), Unit: "S(T) ≤ constant_free (Gronwall form, no modulus, no constant)"},
+		{Name: "norm_bound", Value: r.Norm.Value, Label: lab, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g over space and time", p.Alpha)},
+		{Name: "max_error_bound", Value: r.Final.Value, Label: lab, Unit: "max_t ‖u(t) − v(t)‖ in L²"},
+		{Name: "initial_error", Value: r.Initial, Label: Estimate, Unit: "½‖u0 − v(0)‖², quadrature"},
+		{Name: "space_part", Value: r.Space, Label: Estimate, Unit: "share of the bound that a finer mesh reduces"},
+		{Name: "time_part", Value: r.Time, Label: Estimate, Unit: "share of the bound that shorter steps reduce"},
+		{Name: "newton_steps", Value: float64(run.Newton), Label: Reference, Unit: "count over all time steps"},
+	}}
+	if e := r.Exact; e != nil {
+		res.Scalars = append(res.Scalars,
+			Scalar{Name: "exact_error", Value: e.Sup, Label: Reference, Unit: "sup_t S(t) from the exact solution"},
+			Scalar{Name: "final_error", Value: e.L2Final, Label: Reference, Unit: "‖u(T) − v(T)‖ in L² from the exact solution"},
+			Scalar{Name: "efficiency", Value: r.Split.Value / e.Sup, Label: Reference, Unit: "bound / sup_t S(t) (≥ 1)"})
+	}
+	pt := Table{Name: "parts", Title: "bound per time step: space and time parts", Columns: []Column{{Name: "t"}, {Name: "space"}, {Name: "time"}}}
+	for _, sp := range r.Parts {
+		pt.Rows = append(pt.Rows, []float64{sp.T1, sp.Space, sp.Time})
+	}
+	as := Table{Name: "assumptions", Title: "What the guaranteed numbers rest on", Columns: []Column{{Name: "item"}}}
+	for i, a := range append(append([]string{}, r.Assumptions...), "Friedrichs constant "+cf.Method+" (modulus_bound only)") {
+		as.Labels = append(as.Labels, a)
+		as.Rows = append(as.Rows, []float64{float64(i + 1)})
+	}
+	res.Tables = []Table{table, pt, as}
+	if m.Dim == 1 {
+		res.Plots = []Plot{nodalPlot(m, "v", fmt.Sprintf("v at t = %g", p.T), run.V)}
+	} else if m.NumCells() <= fieldCellLimit {
+		res.Fields = []Field{
+			meshField(m, "v", fmt.Sprintf("v at t = %g", p.T), run.V, false),
+			meshField(m, "indicators", "space indicators summed over the steps", r.Cells, true),
+		}
+	}
+	return res, nil
+}
