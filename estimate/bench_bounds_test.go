@@ -1,0 +1,97 @@
+package estimate
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"testing"
+	"time"
+
+	"gapbook/convex"
+	"gapbook/fem"
+	"gapbook/mesh"
+	"gapbook/nonlinear"
+)
+
+// benchBoundsProblem is the smooth manufactured problem of the nonlinear
+// benchmarks, u = sin(x + 2y) + x on the unit square with
+// f = −D²G(∇u) : ∇²u = sin s (H_xx + 4H_xy + 4H_yy), s = x + 2y, on n × n
+// squares (2n² cells).
+func benchBoundsProblem(b *testing.B, alpha float64, n int) (*mesh.Mesh, convex.Potential, func(x, y float64) float64, func(x, y float64) float64) {
+	G := eqMust(convex.Power(alpha))
+	f := func(x, y float64) float64 {
+		s := x + 2*y
+		c := math.Cos(s)
+		d := convex.Hessian(G, [2]float64{c + 1, 2 * c}, 0)
+		return math.Sin(s) * (d[0] + 4*d[1] + 4*d[2])
+	}
+	u := func(x, y float64) float64 { return math.Sin(x+2*y) + x }
+	m := eqMust(mesh.Rectangle(0, 1, 0, 1, 4, 4))
+	for c := 4; c < n; c *= 2 {
+		m = eqMust(m.Refine())
+	}
+	return m, G, f, u
+}
+
+// BenchmarkBounds times flux + bounds (Estimate with the width Friedrichs
+// constant) for the discrete solution of nonlinear.Solve, for each flux of
+// MATH.md §5. The metric ratio is that time over the time of
+// nonlinear.Solve on the same mesh (measured first, from scratch: nested
+// iteration, default tolerances); the target is ratio ≤ 1 for the
+// equilibrated flux and ≤ 0.1 for the averaged one; flux-ratio is the
+// flux's share alone. n is the number of
+// squares per side (2n² cells). flux=equilibrated is RT0,
+// flux=equilibrated-rt1 is RT1.
+func BenchmarkBounds(b *testing.B) {
+	fluxes := []string{"averaged", "minimised", "equilibrated", "equilibrated-rt1"}
+	for _, name := range fluxes {
+		for _, alpha := range []float64{1.5, 3} {
+			for _, n := range []int{64, 128, 256} {
+				b.Run(fmt.Sprintf("flux=%s/p=%g/n=%d", name, alpha, n), func(b *testing.B) {
+					m, G, f, u := benchBoundsProblem(b, alpha, n)
+					p := nonlinear.Problem{G: G, F: f, Dirichlet: u}
+					start := time.Now()
+					sol, err := nonlinear.Solve(context.Background(), m, p, nonlinear.Options{})
+					if err != nil {
+						b.Fatal(err)
+					}
+					solve := time.Since(start).Seconds()
+					s := eqMust(fem.NewP1(m))
+					prob := Problem{G: G, F: f}
+					cf := eqMust(WidthConstant(m, alpha))
+					var res *Result
+					var fluxTime time.Duration
+					b.ResetTimer()
+					for b.Loop() {
+						t0 := time.Now()
+						var y Flux
+						switch name {
+						case "averaged":
+							y, err = NewAveraged(s, G, sol.U)
+						case "minimised":
+							var y0 *Averaged
+							if y0, err = NewAveraged(s, G, sol.U); err == nil {
+								y, err = Minimise(context.Background(), s, prob, sol.U, y0, MinimiseOptions{Friedrichs: cf})
+							}
+						case "equilibrated":
+							y, err = Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{})
+						case "equilibrated-rt1":
+							y, err = Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Order: 1})
+						}
+						if err != nil {
+							b.Fatal(err)
+						}
+						fluxTime += time.Since(t0)
+						if res, err = Estimate(s, prob, sol.U, y, Options{Friedrichs: cf}); err != nil {
+							b.Fatal(err)
+						}
+					}
+					per := b.Elapsed().Seconds() / float64(b.N)
+					b.ReportMetric(per/solve, "ratio")
+					b.ReportMetric(fluxTime.Seconds()/float64(b.N)/solve, "flux-ratio")
+					b.ReportMetric(res.Majorant.Value, "majorant")
+				})
+			}
+		}
+	}
+}
