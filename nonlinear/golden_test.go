@@ -27,7 +27,7 @@ func TestGolden(t *testing.T) {
 		f, u, _ := man.Steady(0)
 		m, err := mesh.LShape(2)
 		m = refined(t, m, err, 1)
-		r, err := Solve(context.Background(), m, Problem{G: man.G, F: f, Dirichlet: u}, Options{ResTol: 1e-13})
+		r, err := Solve(context.Background(), m, Problem{G: man.G, F: f, Dirichlet: u}, Options{ResTol: 1e-13, Tol: 1e-14})
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -29,7 +29,10 @@ type level struct {
 	trial []float64
 	g, d  []float64
 	gt    []float64
-	bnorm float64 // ‖b‖ on the free nodes
+	// sigma and lin are the cell fluxes of the primal-dual Newton method
+	// (allocated on first use).
+	sigma, lin [][2]float64
+	bnorm      float64 // ‖b‖ on the free nodes
 }
 
 func (sv *solver) newLevel(m *mesh.Mesh, index int) (*level, error) {
@@ -134,26 +137,33 @@ func (lv *level) residual(G convex.Potential, w, g []float64) (norm, ref float64
 	for _, n := range lv.s.FreeNodes {
 		fnorm += lv.nodal[n] * lv.nodal[n]
 	}
-	if lv.c > 0 {
-		nv := lv.s.Mesh.Dim + 1
-		den := lv.massDen()
-		for k, c := range lv.s.Mesh.Cells {
-			// (M_T d)_a = |T|/den (d_a + Σ_b d_b).
-			sum := 0.0
-			for a := range nv {
-				sum += w[c[a]] - lv.ref[c[a]]
-			}
-			f := lv.c * lv.s.Area[k] / den
-			for a := range nv {
-				lv.nodal[c[a]] += f * (w[c[a]] - lv.ref[c[a]] + sum)
-			}
-		}
-	}
+	lv.addMass(w, lv.nodal)
 	for i, n := range lv.s.FreeNodes {
 		g[i] = lv.nodal[n] - lv.load[n]
 	}
 	norm = math.Sqrt(dot(g, g))
 	return norm, lv.bnorm + math.Sqrt(fnorm) + math.SmallestNonzeroFloat64
+}
+
+// addMass adds c M (w − ref) to the nodal vector dst (nothing without a
+// mass term).
+func (lv *level) addMass(w, dst []float64) {
+	if lv.c == 0 {
+		return
+	}
+	nv := lv.s.Mesh.Dim + 1
+	den := lv.massDen()
+	for k, c := range lv.s.Mesh.Cells {
+		// (M_T d)_a = |T|/den (d_a + Σ_b d_b).
+		sum := 0.0
+		for a := range nv {
+			sum += w[c[a]] - lv.ref[c[a]]
+		}
+		f := lv.c * lv.s.Area[k] / den
+		for a := range nv {
+			dst[c[a]] += f * (w[c[a]] - lv.ref[c[a]] + sum)
+		}
+	}
 }
 
 // hessian assembles D²J at the gradients in lv.grad (left by residual) with
@@ -165,6 +175,12 @@ func (lv *level) hessian(G convex.Potential, reg float64) error {
 			return fmt.Errorf("newton: the Hessian of %v is %v at gradient %v; the potential needs a finite g'' away from 0", G, h, x)
 		}
 	}
+	return lv.assemble()
+}
+
+// assemble builds the Hessian matrix from the cell coefficients in lv.coef
+// (plus the mass term) and updates the multigrid.
+func (lv *level) assemble() error {
 	if err := lv.s.Stiffness(lv.coef, lv.hess); err != nil {
 		return fmt.Errorf("newton: %w", err)
 	}

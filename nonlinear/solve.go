@@ -86,6 +86,10 @@ type Step struct {
 	Decrement float64
 	// Residual is ‖g‖/(‖b‖ + ‖F(w)‖) before the step.
 	Residual float64
+	// Gap is the relative duality gap Σ_T |T| D_G(∇w, σ)/scale after the
+	// step, a certified bound of the relative energy error J(w) − min J of
+	// the discrete problem (primal-dual steps only; 0 otherwise).
+	Gap float64
 	// StepLength is the accepted line search factor (0 when the stage
 	// stopped without a step).
 	StepLength float64
@@ -164,6 +168,11 @@ func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, er
 		for c := m; c.Coarse != nil && len(c.Parents) == c.NumNodes(); c = c.Coarse {
 			meshes = append(meshes, c.Coarse)
 		}
+		// A level without free nodes (the coarsest L-shape) has nothing to
+		// solve, and continuation must run where there are unknowns.
+		for len(meshes) > 1 && freeCount(meshes[len(meshes)-1]) == 0 {
+			meshes = meshes[:len(meshes)-1]
+		}
 	}
 	var w []float64
 	_, _, g2 := p.G.Profile(0)
@@ -200,7 +209,7 @@ func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, er
 				return nil, err
 			}
 		}
-		ok, err := sv.newton(ctx, lv, p.G, 0, w, tol, rtol)
+		ok, err := sv.exact(ctx, lv, w, tol, rtol)
 		if err != nil {
 			return nil, err
 		}
@@ -208,7 +217,7 @@ func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, er
 			if err := sv.continuation(ctx, lv, w, true); err != nil {
 				return nil, err
 			}
-			ok, err = sv.newton(ctx, lv, p.G, 0, w, tol, rtol)
+			ok, err = sv.exact(ctx, lv, w, tol, rtol)
 			if err != nil {
 				return nil, err
 			}
@@ -248,6 +257,16 @@ func (o *Options) defaults() {
 	if o.LoadDegree <= 0 {
 		o.LoadDegree = DefaultLoadDegree
 	}
+}
+
+func freeCount(m *mesh.Mesh) int {
+	n := 0
+	for i := range m.NumNodes() {
+		if i >= len(m.Boundary) || !m.Boundary[i] {
+			n++
+		}
+	}
+	return n
 }
 
 // prolong interpolates the nodal P1 vector w of m.Coarse onto m.
@@ -296,6 +315,16 @@ func (sv *solver) continuation(ctx context.Context, lv *level, w []float64, fall
 		}
 	}
 	return nil
+}
+
+// exact minimises J with the exact potential on lv: by the primal-dual
+// Newton method, certified by the duality gap, for growth below 2 (where
+// plain Newton crawls), by Newton's method otherwise.
+func (sv *solver) exact(ctx context.Context, lv *level, w []float64, tol, rtol float64) (bool, error) {
+	if sv.p.G.Growth() < 2 && hasConjugate(sv.p.G) {
+		return sv.primalDual(ctx, lv, sv.p.G, w, tol)
+	}
+	return sv.newton(ctx, lv, sv.p.G, 0, w, tol, rtol)
 }
 
 // laplaceStart replaces w by the solution of the problem with G = |ξ|²/2
