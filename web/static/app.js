@@ -256,6 +256,10 @@ function inputForm(c, kind) {
   const form = el('form', { class: 'inputs', novalidate: true, 'aria-label': `Inputs of ${c.id}` });
   form.addEventListener('submit', (e) => { e.preventDefault(); runCells([c.id]); });
   c.inputs = c.inputs || {};
+  // Inputs the file sets, or that have no default, come first; the others
+  // wait behind a disclosure so a kind with many inputs stays readable.
+  const more = el('details', { class: 'more-inputs' });
+  const main = [];
   for (const inp of kind.inputs) {
     const fid = `${domID(c.id)}-in-${inp.name}`;
     const raw = c.inputs[inp.name];
@@ -269,7 +273,9 @@ function inputForm(c, kind) {
         break;
       case 'choice':
         field = el('select', { id: fid }, ...inp.choices.map((ch) => el('option', { value: ch, text: ch })));
-        field.value = raw ?? inp.default ?? '';
+        const cur = raw ?? inp.default ?? '';
+        if (!inp.choices.includes(cur)) field.append(el('option', { value: String(cur), text: `${JSON.stringify(cur).slice(0, 40)} (not allowed)` }));
+        field.value = String(cur);
         field.addEventListener('change', () => set(field.value));
         break;
       case 'ref': {
@@ -301,11 +307,18 @@ function inputForm(c, kind) {
     field.setAttribute('aria-describedby', fid + '-msg ' + fid + '-doc');
     field.dataset.input = inp.name;
     const range = boundText(inp);
-    form.append(el('div', { class: 'field' },
+    const row = el('div', { class: 'input-row' },
       el('label', { for: fid, text: inp.name }),
       field,
-      el('span', { class: 'field-doc', id: fid + '-doc', text: inp.doc + (range ? ` ∈ ${range}` : '') + (inp.type === 'choice' ? '' : '') }),
-      msg));
+      el('span', { class: 'field-doc', id: fid + '-doc', text: inp.doc + (range ? ` ∈ ${range}` : '') }),
+      msg);
+    if (raw !== undefined || (inp.default === null && !inp.optional)) main.push(row); else more.append(row);
+  }
+  form.append(...main);
+  const n = more.childElementCount;
+  if (n) {
+    more.prepend(el('summary', { text: `${n} more input${n > 1 ? 's' : ''} at their defaults` }));
+    form.append(more);
   }
   return form;
 }
@@ -383,7 +396,7 @@ function applyView(sec, v) {
     for (const [name, msg] of Object.entries(v.fields)) {
       const f = sec.querySelector(`[data-input="${CSS.escape(name)}"]`);
       const m = f && f.parentElement.querySelector('.field-msg');
-      if (m && !m.textContent) { m.textContent = msg; m.classList.add('engine'); }
+      if (m && !m.textContent) { m.textContent = msg; m.classList.add('engine'); f.closest('details')?.setAttribute('open', ''); }
     }
   }
   const foot = sec.querySelector('.cell-foot');
@@ -690,12 +703,15 @@ async function compareRuns() {
   try {
     const r = await ask('compare', { doc: docText(), runs, cell, table, x: $('cmp-x').value.trim(), y: $('cmp-y').value.trim() });
     const box = $('comparison');
-    box.replaceChildren();
+    box.hidden = false;
+    box.replaceChildren(el('header', { class: 'cell-head' }, el('h2', { text: `${runs.length} run${runs.length > 1 ? 's' : ''} compared` }),
+      el('span', { class: 'tools' }, el('button', { type: 'button', onclick: () => { box.hidden = true; } }, 'Close'))));
     const t = el('div', { class: 'rendered' });
     t.innerHTML = r.html;
     box.append(t, el('p', { class: 'export' }, el('button', { type: 'button', onclick: () => download('runs.csv', r.csv, 'text/csv') }, 'CSV')));
     if (r.plot) { const f = el('figure', { class: 'plot' }); f.innerHTML = r.plot; box.append(f); }
     if (r.plotError) box.append(el('p', { class: 'field-msg', text: r.plotError }));
+    box.scrollIntoView({ block: 'start' });
   } catch (e) { notice(e.message, 'error'); }
 }
 
@@ -849,10 +865,17 @@ async function boot() {
     $('booting')?.remove();
     if (!await openText(init.text, init.source)) return;
     if (init.note) {
-      notice(init.note, 'info');
+      // A lasting banner: the notices that follow must not hide where the notebook came from.
+      const banner = el('p', { id: 'restored', class: 'restored', role: 'status' }, el('span', { text: init.note }));
+      const close = () => banner.remove();
       if (init.restored) {
-        $('notice').append(' ', el('button', { type: 'button', onclick: () => { openText(init.restored, init.source); notice('Opened the original notebook.', 'ok'); } }, 'Open the original instead'));
+        banner.append(' ', el('button', { type: 'button', onclick: async () => {
+          close();
+          if (await openText(init.restored, init.source)) { notice('Opened the original notebook.', 'ok'); runCells(null); }
+        } }, 'Open the original instead'));
       }
+      banner.append(' ', el('button', { type: 'button', 'aria-label': 'Dismiss', onclick: close }, 'Dismiss'));
+      $('notice').before(banner);
     }
     state.bootMs = performance.now() - t0;
     // Saved results are on screen now; recompute to bring every cell up to date.
