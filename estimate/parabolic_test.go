@@ -223,3 +223,41 @@ func ExampleParabolic() {
 	fmt.Printf("S(T) ≤ %.2e (%v)\n", r.Split.Value, r.Split.Label)
 	// Output: S(T) ≤ 4.09e-04 (guaranteed)
 }
+
+// TestAdaptEvolution runs the adaptive loop on the 1-D heat problem from a
+// coarse mesh and two steps: every round's bound must stay above its true
+// error measure, both h and τ must get refined, and the bound must fall.
+func TestAdaptEvolution(t *testing.T) {
+	G := must(convex.Power(2))
+	man := must(nonlinear.Manufacture("sin(pi*x)*exp(-t)", G))
+	f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
+	u0 := func(x, y float64) float64 { return man.U(x, y, 0) }
+	exact := man.Clone()
+	run := func(ctx context.Context, m *mesh.Mesh, times []float64, step func(context.Context, float64, float64, []float64, []float64) error) error {
+		_, err := nonlinear.Evolve(ctx, m, nonlinear.Evolution{G: G, F: f, U0: u0, Times: times}, nonlinear.EvolveOptions{}, step)
+		return err
+	}
+	rounds, err := AdaptEvolution(context.Background(), must(mesh.Interval(0, 1, 4)), []float64{0, 0.25, 0.5}, run,
+		EvolutionAdaptOptions{Problem: ParabolicProblem{G: G, F: f, U0: u0}, Rounds: 8,
+			Options: ParabolicOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1},
+				Exact: &ExactSolution{U: exact.U, Grad: exact.Grad, Split: 2}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	kinds := map[string]int{}
+	for i, r := range rounds {
+		S := r.Result.Exact.Total()
+		if !(r.Result.Split.Value >= S) {
+			t.Errorf("round %d: bound %.4e below S = %.4e", i, r.Result.Split.Value, S)
+		}
+		kinds[r.Refined]++
+		t.Logf("round %d: %d cells, %d steps, bound %.3e (space %.2e, time %.2e), I_eff %.2f, refined %s", i, r.Mesh.NumCells(), len(r.Times)-1,
+			r.Result.Split.Value, r.Result.Space, r.Result.Time, r.Result.Split.Value/S, r.Refined)
+	}
+	if kinds["space"] == 0 || kinds["time"] == 0 {
+		t.Errorf("refinements %v: expected both space and time", kinds)
+	}
+	if first, last := rounds[0].Result.Split.Value, rounds[len(rounds)-1].Result.Split.Value; !(last < first/4) {
+		t.Errorf("bound fell only from %.3e to %.3e", first, last)
+	}
+}
