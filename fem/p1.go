@@ -121,6 +121,8 @@ func cellPattern(cells [][3]int32, nv, nn int, free, freeNodes []int32) (*CSR, [
 		}
 		return buf
 	})
+	// Matrices get their own values from NewMatrix; the pattern keeps none.
+	pat.Val = nil
 	pos := make([][9]int32, len(cells))
 	for k, c := range cells {
 		for a := range 3 {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -39,7 +40,11 @@ func PCG(ctx context.Context, a *CSR, m Preconditioner, b, x []float64, tol floa
 		clear(x)
 		return st, nil
 	}
-	r, z, p, q := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+	// The four work vectors come from a pool: Newton methods call PCG once
+	// per step with the same size, and a million unknowns need 32 MB.
+	work := getWork(n)
+	defer pcgWork.Put(work)
+	r, z, p, q := work.v[0], work.v[1], work.v[2], work.v[3]
 	a.MulVec(r, x)
 	st.MatVecs++
 	for i := range r {
@@ -85,6 +90,24 @@ func PCG(ctx context.Context, a *CSR, m Preconditioner, b, x []float64, tol floa
 		}
 	}
 	return st, nil
+}
+
+type pcgVectors struct{ v [4][]float64 }
+
+var pcgWork sync.Pool
+
+func getWork(n int) *pcgVectors {
+	w, _ := pcgWork.Get().(*pcgVectors)
+	if w == nil || cap(w.v[0]) < n {
+		w = &pcgVectors{}
+		for i := range w.v {
+			w.v[i] = make([]float64, n)
+		}
+	}
+	for i := range w.v {
+		w.v[i] = w.v[i][:n]
+	}
+	return w
 }
 
 func dot(x, y []float64) float64 {
@@ -204,7 +227,10 @@ type mgLevel struct {
 // Galerkin product patterns). Call Update with a matrix before Apply.
 func NewMultigrid(s *P1) (*Multigrid, error) {
 	mg := &Multigrid{Sweeps: 2}
-	fine := s.NewMatrix()
+	// The fine matrix is the one given to Update; until then only its
+	// pattern is needed (no values: a million unknowns would hold 56 MB).
+	p := s.pattern
+	fine := &CSR{Rows: p.Rows, Cols: p.Cols, RowPtr: p.RowPtr, Col: p.Col}
 	mg.levels = append(mg.levels, mgLevel{a: fine, r: make([]float64, fine.Rows)})
 	m, free := s.Mesh, s.Free
 	for m.Coarse != nil && len(m.Parents) == m.NumNodes() {
@@ -270,8 +296,8 @@ func (mg *Multigrid) Levels() int { return len(mg.levels) }
 // the coarsest factorisation: O(nnz) plus the coarsest Cholesky.
 func (mg *Multigrid) Update(a *CSR) error {
 	l0 := &mg.levels[0]
-	if a.Rows != l0.a.Rows || len(a.Val) != len(l0.a.Val) {
-		return fmt.Errorf("multigrid update: matrix is %d×%d with %d entries, the hierarchy was built for %d rows and %d entries", a.Rows, a.Cols, len(a.Val), l0.a.Rows, len(l0.a.Val))
+	if a.Rows != l0.a.Rows || len(a.Col) != len(l0.a.Col) || len(a.Val) != len(a.Col) {
+		return fmt.Errorf("multigrid update: matrix is %d×%d with %d entries, the hierarchy was built for %d rows and %d entries", a.Rows, a.Cols, len(a.Val), l0.a.Rows, len(l0.a.Col))
 	}
 	l0.a = a
 	for i := range mg.levels {
@@ -279,11 +305,20 @@ func (mg *Multigrid) Update(a *CSR) error {
 		if i > 0 {
 			mg.levels[i-1].gal.Update(mg.levels[i-1].a)
 		}
-		d, err := diagonal(l.a)
-		if err != nil {
-			return fmt.Errorf("multigrid level %d: %w", i, err)
+		// The pattern is fixed: find the diagonal positions once, then
+		// only check the values.
+		if l.diag == nil {
+			d, err := diagonal(l.a)
+			if err != nil {
+				return fmt.Errorf("multigrid level %d: %w", i, err)
+			}
+			l.diag = d
 		}
-		l.diag = d
+		for r, p := range l.diag {
+			if !(l.a.Val[p] > 0) {
+				return fmt.Errorf("multigrid level %d: matrix row %d has diagonal %g; a positive diagonal is needed (is a cell degenerate or a coefficient not positive definite?)", i, r, l.a.Val[p])
+			}
+		}
 	}
 	last := &mg.levels[len(mg.levels)-1]
 	n := last.a.Rows

@@ -30,6 +30,12 @@ func patternFromRows(rows, cols int, rowCols func(i int, buf []int32) []int32) *
 		a.Col = append(a.Col, buf...)
 		a.RowPtr[i+1] = int32(len(a.Col))
 	}
+	// append leaves up to a quarter of the capacity unused on large
+	// patterns; patterns live as long as their space.
+	a.Col = slices.Clip(a.Col)
+	if cap(a.Col) > len(a.Col)+len(a.Col)/16 {
+		a.Col = slices.Clone(a.Col)
+	}
 	a.Val = make([]float64, len(a.Col))
 	return a
 }
