@@ -56,6 +56,9 @@ type Options struct {
 	// ResTol is the relative residual required as well:
 	// ‖g‖ ≤ ResTol · (‖b‖ + ‖F(w)‖), with b the load and F(w) the internal
 	// forces ∫ ∂G(∇w)·∇φ_i, both on the free nodes (default 1e-8).
+	// For potentials of growth below 2 both tests are replaced by the
+	// relative duality gap ≤ Tol (Step.Gap): there the residual is
+	// dominated by cells whose gradients do not matter for the energy.
 	ResTol float64
 	// MaxIter bounds the Newton steps of each stage (each continuation
 	// stage and each level; default 60).
@@ -142,7 +145,9 @@ func (e *NotConvergedError) Error() string {
 // (Hackbusch 1985, §5.5: prolongate, then a few Newton steps per level); for
 // potentials with g”(0) ∈ {0, ∞} continuation on g_ε(t) = g(√(ε²+t²)) − g(ε)
 // (ε ÷ 10 per stage) on the coarsest level, and on any level where plain
-// Newton fails. The returned solution always solves the exact problem.
+// Newton fails. For growth below 2 the exact potential's stage is the
+// primal-dual Newton method of primalDual (dual.go), stopped by a certified
+// duality gap. The returned solution always solves the exact problem.
 //
 // An error is a *NotConvergedError (with the history), a context error
 // (wrapped) or a description of invalid input.
