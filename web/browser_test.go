@@ -443,6 +443,11 @@ func TestSaveReloadShareAutosave(t *testing.T) {
 		t.Fatalf("saved file: title %q, %d cells, results saved: %v", nb.Title, len(nb.Cells), nb.Cells[1].Saved != nil)
 	}
 
+	// The page's "Standalone page" asks the server to assemble the file.
+	if page := eval[string](tb, `fetch('standalone', {method: 'POST', body: docText()}).then(r => r.text())`); !strings.Contains(page, `data-mode="standalone"`) || !strings.Contains(page, "Edited title") {
+		t.Errorf("the standalone page made by the server: %.200s", page)
+	}
+
 	// Reload: the autosave brings the edit back.
 	tb.wait(`(JSON.parse(localStorage.getItem('gapbook.autosave') || '{}').doc || '').includes('Edited title')`)
 	tb.load(tb.url)
@@ -633,12 +638,16 @@ func TestNarrowScreen(t *testing.T) {
 // evaluation of it (engine cache cold in both).
 func BenchmarkFirstResults(b *testing.B) {
 	path := "../examples/default.gapbook"
+	if p := os.Getenv("GAPBOOK_BENCH_FILE"); p != "" {
+		path = p
+	}
 	doc := readFile(b, path)
 	for i := 0; i < b.N; i++ {
 		tb := openTab(b, doc)
 		tb.load(tb.url)
 		ms := eval[float64](tb, `state.firstResults`)
 		b.ReportMetric(ms, "ms-to-first-results")
+		b.Logf("start stages (ms since navigation): %s", eval[string](tb, `JSON.stringify(state.marks)`))
 		// One cold evaluation in the worker (after a warm-up), against native.
 		wasm := eval[float64](tb, `(async () => { await ask('run', {doc: docText()}); restartWorker(); await state.ready;
 			const t = performance.now(); await ask('run', {doc: docText()}); return performance.now() - t })()`)

@@ -15,7 +15,6 @@ import (
 	"crypto/sha256"
 	"embed"
 	"encoding/base64"
-	"errors"
 	"fmt"
 	"io"
 	"io/fs"
@@ -162,11 +161,10 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 	if err := Missing(assets); err != nil {
 		return nil, err
 	}
-	if _, err := notebook.Load(doc); err != nil {
-		var le *notebook.LoadError
-		if !errors.As(err, &le) {
-			return nil, err
-		}
+	// Problems in cell inputs are the page's to show; a file that cannot
+	// be opened at all is refused here.
+	if nb, err := notebook.Load(doc); nb == nil {
+		return nil, err
 	}
 	read := func(name string) (string, error) {
 		b, err := fs.ReadFile(assets, name)

@@ -22,6 +22,7 @@ const state = {
   source: 'default',
   standalone: document.documentElement.dataset.mode === 'standalone',
   firstResults: 0,    // ms from navigation to first results (for the benchmark)
+  marks: {},          // ms from navigation to each stage of the start
   // The standalone page as it arrived, to save it again with new results.
   pristine: '<!DOCTYPE html>\n' + document.documentElement.outerHTML,
 };
@@ -539,6 +540,9 @@ function noteFirstResults() {
   if (!state.firstResults) state.firstResults = performance.now();
 }
 
+// mark records when a stage of the start was reached (ms since navigation).
+function mark(name) { state.marks[name] = Math.round(performance.now()); }
+
 function endRun() {
   state.running = null;
   $('stop').disabled = true;
@@ -785,15 +789,18 @@ function saveFile() {
 async function openText(t, source) {
   let doc;
   try { doc = JSON.parse(t); } catch (e) { notice('This file is not a gapbook notebook (not JSON): ' + e.message, 'error'); return false; }
+  let r;
   try {
-    await ask('show', { doc: t });
+    r = await ask('show', { doc: t });
   } catch (e) { notice(e.message, 'error'); return false; }
   state.doc = doc;
-  state.doc.cells = state.doc.cells || [];
+  state.doc.cells = Array.isArray(state.doc.cells) ? state.doc.cells : [];
   state.source = source;
   state.views.clear();
+  for (const v of r.cells) state.views.set(v.id, v);
   renderCells();
-  await refreshStates();
+  showProblems(r.problems);
+  renderRuns(r.runs);
   autosave();
   return true;
 }
@@ -855,15 +862,19 @@ async function initialDoc() {
 async function boot() {
   const t0 = performance.now();
   try {
-    const [mod, init] = await Promise.all([loadModule(), initialDoc()]);
+    const [mod, init] = await Promise.all([loadModule().then((m) => (mark('compiled'), m)), initialDoc()]);
     state.module = mod;
     startWorker();
     await state.ready;
+    mark('ready');
     $('caution').replaceChildren(el('strong', { text: 'Caution. ' }), state.caution);
     $('add-kind').replaceChildren(...[...state.kinds.values()].map((k) => el('option', { value: k.name, title: k.doc, text: k.name })));
     $('add-kind').value = 'note';
     $('booting')?.remove();
     if (!await openText(init.text, init.source)) return;
+    mark('shown');
+    // Saved results or rendered notes are on screen: those are first results.
+    if ([...state.views.values()].some((v) => v.status === 'ok' || v.body)) noteFirstResults();
     if (init.note) {
       // A lasting banner: the notices that follow must not hide where the notebook came from.
       const banner = el('p', { id: 'restored', class: 'restored', role: 'status' }, el('span', { text: init.note }));
