@@ -428,9 +428,14 @@ func TestSaveReloadShareAutosave(t *testing.T) {
 	eval[bool](tb, `(localStorage.clear(), true)`)
 	tb.load(tb.url)
 	eval[bool](tb, `(() => { const f = document.getElementById('title'); f.value = 'Edited title'; f.dispatchEvent(new Event('change')); return true })()`)
-	eval[bool](tb, `(deleteCell('intro'), true)`)
+	// Delete and undo with our own keys: Alt+Delete on the focused cell, Alt+U.
+	key := func(k string) string {
+		return `(document.dispatchEvent(new KeyboardEvent('keydown', {key: '` + k + `', altKey: true, bubbles: true})), true)`
+	}
+	eval[bool](tb, `(focusCell('intro'), true)`)
+	eval[bool](tb, key("Delete"))
 	tb.wait(`!document.getElementById('cell-intro')`)
-	eval[bool](tb, `(undoDelete(), true)`)
+	eval[bool](tb, key("u"))
 	tb.wait(`!!document.getElementById('cell-intro') && document.querySelectorAll('.cell')[0].dataset.cell === 'intro'`)
 
 	// The saved file is a notebook that loads losslessly, results included.

@@ -15,12 +15,14 @@ import (
 	"crypto/sha256"
 	"embed"
 	"encoding/base64"
+	"encoding/hex"
 	"fmt"
 	"io"
 	"io/fs"
 	"net/http"
 	"path"
 	"strings"
+	"sync"
 
 	"gapbook/notebook"
 )
@@ -81,6 +83,7 @@ func Handler(o Options) http.Handler {
 		assets = Assets()
 	}
 	files := http.FileServerFS(assets)
+	tags := &etags{fsys: assets, tag: map[string]string{}}
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		h := w.Header()
 		h.Set("Content-Security-Policy", Policy)
@@ -118,8 +121,40 @@ func Handler(o Options) http.Handler {
 				return
 			}
 		}
+		// A content tag lets the browser revalidate instead of downloading
+		// again, and keep its compiled code of the engine between visits.
+		if tag := tags.of(r.URL.Path); tag != "" {
+			h.Set("ETag", tag)
+		}
 		files.ServeHTTP(w, r)
 	})
+}
+
+// etags computes, once per file, a tag from the file's contents.
+type etags struct {
+	fsys fs.FS
+	mu   sync.Mutex
+	tag  map[string]string
+}
+
+func (e *etags) of(urlPath string) string {
+	name := strings.TrimPrefix(path.Clean(urlPath), "/")
+	if name == "" {
+		name = "index.html"
+	}
+	e.mu.Lock()
+	defer e.mu.Unlock()
+	if t, ok := e.tag[name]; ok {
+		return t
+	}
+	b, err := fs.ReadFile(e.fsys, name)
+	if err != nil {
+		return ""
+	}
+	sum := sha256.Sum256(b)
+	t := `"` + hex.EncodeToString(sum[:12]) + `"`
+	e.tag[name] = t
+	return t
 }
 
 // Export evaluates the notebook natively, saves the results in it (so the

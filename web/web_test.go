@@ -61,6 +61,14 @@ func TestHandler(t *testing.T) {
 			t.Errorf("policy allows script evaluation: %q", csp)
 		}
 	}
+	// A second request with the tag of the first is answered "not modified".
+	r, _ := http.Get(srv.URL + "/app.js")
+	r.Body.Close()
+	req, _ := http.NewRequest("GET", srv.URL+"/app.js", nil)
+	req.Header.Set("If-None-Match", r.Header.Get("ETag"))
+	if r2, err := http.DefaultClient.Do(req); err != nil || r2.StatusCode != http.StatusNotModified || r.Header.Get("ETag") == "" {
+		t.Errorf("revalidation with ETag %q: %v %v", r.Header.Get("ETag"), r2.StatusCode, err)
+	}
 	if err := web.Missing(pageOnly(t)); err == nil || !strings.Contains(err.Error(), "make wasm") {
 		t.Errorf("Missing without an engine: %v", err)
 	}
