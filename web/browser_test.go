@@ -586,6 +586,20 @@ func TestCancelStopsAndPageStaysUsable(t *testing.T) {
 	tb.screenshot("cancel-stopped")
 }
 
+func TestEngineCrashKeepsNotebook(t *testing.T) {
+	tb := openTab(t, readFile(t, "testdata/halt.gapbook"))
+	tb.do(chromedp.Navigate(tb.url))
+	tb.wait(`document.getElementById('notice')?.textContent.includes('fresh engine')`)
+	tb.wait(`!document.body.classList.contains('busy')`)
+	// The notebook is intact and the fresh engine computes.
+	eval[bool](tb, `(runCells(['quick']), true)`)
+	tb.wait(`document.getElementById('cell-quick').dataset.status === 'ok'`)
+	if n := eval[int](tb, `state.doc.cells.length`); n != 2 {
+		t.Errorf("after the crash the notebook has %d cells, want 2", n)
+	}
+	tb.screenshot("engine-crash")
+}
+
 func TestRunsPanelCompares(t *testing.T) {
 	tb := openTab(t, readFile(t, "testdata/study.gapbook"))
 	tb.load(tb.url)

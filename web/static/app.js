@@ -66,6 +66,7 @@ function startWorker() {
         return;
       }
       if (m.type === 'fatal') { reject(new Error(m.error)); return; }
+      if (m.type === 'exit') { engineFailed('the engine stopped unexpectedly (for example out of memory)'); return; }
       const p = state.pending.get(m.id);
       if (!p) return;
       if (m.type === 'done') { state.pending.delete(m.id); p.resolve(m); }
@@ -74,13 +75,28 @@ function startWorker() {
     };
   });
   w.onerror = (e) => {
-    // The engine crashed (for example out of memory): start a fresh one;
-    // the notebook itself lives in the page and in the autosave.
     e.preventDefault();
-    failPending('the engine stopped unexpectedly: ' + (e.message || 'unknown error') + '; it was restarted');
-    restartWorker();
+    engineFailed('the engine stopped unexpectedly: ' + (e.message || 'unknown error'));
   };
   w.postMessage({ module: state.module });
+}
+
+// engineFailed starts a fresh engine after a crash; the notebook lives in
+// the page and in the autosave, so nothing is lost but the running cell.
+function engineFailed(why) {
+  const run = state.running;
+  failPending(why + '; a fresh engine was started');
+  restartWorker();
+  if (run) {
+    state.running = null;
+    for (const id of run.cells) {
+      const sec = document.getElementById(domID(id));
+      const v = state.views.get(id);
+      if (sec && v) applyView(sec, v);
+    }
+    endRun();
+  }
+  notice(why + '. A fresh engine was started; your notebook is intact.', 'error');
 }
 
 function failPending(msg) {

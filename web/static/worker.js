@@ -12,7 +12,9 @@ self.onmessage = async (e) => {
     const go = new Go();
     try {
       const instance = await WebAssembly.instantiate(e.data.module, go.importObject);
-      go.run(instance);
+      // The engine ends only when it failed (out of memory, a fatal error):
+      // tell the page, which starts a fresh one.
+      go.run(instance).then(() => self.postMessage(JSON.stringify({ type: 'exit' })));
     } catch (err) {
       self.postMessage(JSON.stringify({ type: 'fatal', error: 'the engine did not start: ' + err }));
       return;

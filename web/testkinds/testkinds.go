@@ -1,12 +1,13 @@
-// Package testkinds registers two cell kinds used only by the browser
-// tests, until the numerical kinds exist: "ramp", a small table and
-// scalars computed from numeric inputs, and "stall", which runs until it is
-// cancelled. The production WebAssembly never imports this package; the
+// Package testkinds registers cell kinds used only by the browser tests:
+// "ramp", a small table and scalars computed from numeric inputs, "stall",
+// which runs until it is cancelled, and "halt", which ends the engine as a
+// crash would. The production WebAssembly never imports this package; the
 // tests build it with -tags gapbooktest.
 package testkinds
 
 import (
 	"math"
+	"os"
 	"time"
 
 	"gapbook/notebook"
@@ -15,6 +16,22 @@ import (
 func init() {
 	notebook.Register(ramp{})
 	notebook.Register(stall{})
+	notebook.Register(halt{})
+}
+
+// halt ends the program, as a fatal error in a kind would: the page must
+// start a fresh engine and keep the notebook.
+type halt struct{}
+
+func (halt) Name() string { return "halt" }
+func (halt) Doc() string  { return "Test only: ends the engine, as a crash would." }
+func (halt) Inputs() []notebook.Input {
+	return []notebook.Input{{Name: "code", Doc: "exit status", Type: notebook.Integer, Default: 3, Low: notebook.AtLeast(1), High: notebook.AtMost(100)}}
+}
+
+func (halt) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Results, error) {
+	os.Exit(in.Int("code"))
+	return nil, nil
 }
 
 // ramp tabulates e(h) = a·h^k for h = 1/2, 1/4, … (n rows) and reports
