@@ -591,6 +591,9 @@ func TestEngineCrashKeepsNotebook(t *testing.T) {
 	tb.do(chromedp.Navigate(tb.url))
 	tb.wait(`document.getElementById('notice')?.textContent.includes('fresh engine')`)
 	tb.wait(`!document.body.classList.contains('busy')`)
+	if st := tb.statuses()["boom"]; st != "error" {
+		t.Errorf("the cell that ended the engine is %q, want error", st)
+	}
 	// The notebook is intact and the fresh engine computes.
 	eval[bool](tb, `(runCells(['quick']), true)`)
 	tb.wait(`document.getElementById('cell-quick').dataset.status === 'ok'`)

@@ -66,7 +66,7 @@ function startWorker() {
         return;
       }
       if (m.type === 'fatal') { reject(new Error(m.error)); return; }
-      if (m.type === 'exit') { engineFailed('the engine stopped unexpectedly (for example out of memory)'); return; }
+      if (m.type === 'exit') { engineFailed('The engine stopped unexpectedly (for example out of memory)'); return; }
       const p = state.pending.get(m.id);
       if (!p) return;
       if (m.type === 'done') { state.pending.delete(m.id); p.resolve(m); }
@@ -76,7 +76,7 @@ function startWorker() {
   });
   w.onerror = (e) => {
     e.preventDefault();
-    engineFailed('the engine stopped unexpectedly: ' + (e.message || 'unknown error'));
+    engineFailed('The engine stopped unexpectedly: ' + (e.message || 'unknown error'));
   };
   w.postMessage({ module: state.module });
 }
@@ -93,6 +93,14 @@ function engineFailed(why) {
       const sec = document.getElementById(domID(id));
       const v = state.views.get(id);
       if (sec && v) applyView(sec, v);
+    }
+    // The cell that was computing is the likely cause: say so on it.
+    const sec = run.current && document.getElementById(domID(run.current));
+    if (sec) {
+      sec.dataset.status = 'error';
+      sec.querySelector('.status').textContent = STATUS_WORDS.error;
+      sec.querySelector('.cell-foot').replaceChildren(el('p', { class: 'cell-error', role: 'alert' },
+        el('strong', { text: 'Failed: ' }), 'the engine stopped while computing this cell; check its sizes (a finer mesh needs more memory).'));
     }
     endRun();
   }
@@ -567,6 +575,7 @@ function endRun() {
 }
 
 function showProgress(m) {
+  if (state.running) state.running.current = m.cell;
   const sec = document.getElementById(domID(m.cell));
   if (!sec) return;
   sec.dataset.status = 'running';
