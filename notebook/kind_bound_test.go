@@ -108,6 +108,7 @@ func TestBoundEnclosesExactError(t *testing.T) {
 		{"rectangle", "sin(pi*x)*sin(pi*y) + x", 1.5, "equilibrated", false},
 		{"rectangle", "x*(1-x)*y*(1-y)*exp(x+y) + 0.5*x", 2, "equilibrated", false},
 		{"rectangle", "sin(pi*x)*sin(pi*y) + x", 3, "averaged", false},
+		{"rectangle", "sin(pi*x)*sin(pi*y) + x", 3, "minimised", false},
 		{"interval", "x*(1-x)*exp(x) + x", 4, "equilibrated", false},
 		{"L-shape", "(1 - x^2)*(1 - y^2)*x*y + x + 2*y", 3, "equilibrated", false},
 		{"L-shape", "(x^2 + y^2)*(1 + x)", 2, "equilibrated", true},
@@ -152,6 +153,23 @@ func TestBoundEnclosesExactError(t *testing.T) {
 				t.Error("assumptions are not listed")
 			}
 		})
+	}
+}
+
+// The minimised flux starts from the averaged one and never raises its
+// majorant (estimate.Minimise's contract).
+func TestBoundMinimisedBelowAveraged(t *testing.T) {
+	cells := []string{
+		kc("p", "problem", map[string]any{"domain": "L-shape", "alpha": 1.5}),
+		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
+		kc("s", "solve", map[string]any{"mesh": "m"}),
+		kc("a", "bound", map[string]any{"solution": "s", "flux": "averaged", "minorant": false}),
+		kc("b", "bound", map[string]any{"solution": "s", "flux": "minimised", "minorant": false}),
+	}
+	ev := evalCells(t, cells...)
+	a, b := scalar(t, okCell(t, ev, "a"), "majorant").Value, scalar(t, okCell(t, ev, "b"), "majorant").Value
+	if !(b <= a) {
+		t.Errorf("minimised majorant %g above the averaged one %g", b, a)
 	}
 }
 
