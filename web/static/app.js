@@ -386,7 +386,13 @@ function parseField(inp, s) {
 }
 
 function applyViews(views, fromRun) {
-  for (const v of views) {
+  for (let v of views) {
+    const old = state.views.get(v.id);
+    // An edit makes results stale, not wrong to look at: keep the last ones,
+    // faded, until the cell is computed again.
+    if (v.status === 'stale' && !v.scalars.length && !v.html && old && (old.scalars.length || old.html)) {
+      v = { ...old, status: 'stale', error: null, reproduced: '', differences: null, fields: v.fields, earlier: true };
+    }
     state.views.set(v.id, v);
     const sec = document.getElementById(domID(v.id));
     if (sec && !(state.running && state.running.cells.has(v.id) && !fromRun)) applyView(sec, v);
@@ -430,6 +436,9 @@ function applyView(sec, v) {
     const e = el('p', { class: 'cell-error', role: 'alert' }, el('strong', { text: 'Failed: ' }),
       (v.error.field ? `input ${v.error.field}: ` : '') + v.error.msg);
     foot.append(e);
+  }
+  if (v.earlier) {
+    foot.append(el('p', { class: 'earlier', text: 'Faded: results of earlier inputs. Recompute to bring them up to date.' }));
   }
   if (v.reproduced === 'yes' && v.digest) {
     foot.append(el('p', { class: 'repro yes', text: `✓ reproduced the saved results (digest ${v.digest.slice(0, 12)}…)` }));
