@@ -15,6 +15,14 @@
 //	{"id": 7, "type": "cell", "view": {...}}      a cell finished (run only)
 //	{"id": 7, "type": "done", ...}                the answer; ends the request
 //	{"id": 7, "type": "error", "error": "..."}    the request failed; ends it
+//	{"type": "exit"}                              the engine ended (posted by worker.js)
+//
+// A cell view ("view", and each of "cells" in an answer) carries the id,
+// kind and status ("ok", "stale", "error") of a cell, its error (input to
+// blame, message, failed dependency), "fields" (a message per input),
+// "scalars" (name, label, unit, "value" with every digit and "shown" for
+// people), "html" (tables, plots and fields, escaped), "body" (a note's
+// text rendered), the digest and whether saved results were reproduced.
 //
 // Operations: "show" (cell views from the saved results, no evaluation),
 // "run" (evaluate all cells or "only" some and the cells they need; the

@@ -231,6 +231,8 @@ func (tb *tab) load(url string) {
 
 func (tb *tab) screenshot(name string) {
 	tb.t.Helper()
+	// From the top, so the sticky header and runs panel sit where a person sees them.
+	eval[bool](tb, `(window.scrollTo(0, 0), true)`)
 	b, err := chromedp.Run(tb.ctx, chromedp.FullScreenshot(100))
 	if err != nil {
 		tb.t.Fatal(err)
@@ -420,6 +422,43 @@ func TestEditInputDependentsStaleThenUpdate(t *testing.T) {
 		t.Errorf("no message beside the field; got %q", msg)
 	}
 	tb.screenshot("edit-invalid")
+}
+
+func TestEditingCells(t *testing.T) {
+	tb := openTab(t, readFile(t, "testdata/study.gapbook"))
+	tb.load(tb.url)
+	key := func(k string) string {
+		return `(document.dispatchEvent(new KeyboardEvent('keydown', {key: '` + k + `', altKey: true, bubbles: true})), true)`
+	}
+	order := func() string { return strings.Join(eval[[]string](tb, `[...document.querySelectorAll('.cell')].map(c => c.dataset.cell)`), " ") }
+	// Duplicate base (Alt+C), move the copy down (Alt+↓), add a note (Alt+N).
+	eval[bool](tb, `(focusCell('base'), true)`)
+	eval[bool](tb, key("c"))
+	tb.wait(`!!document.getElementById('cell-base-2')`)
+	eval[bool](tb, key("ArrowDown"))
+	tb.wait(`document.querySelectorAll('.cell')[3].dataset.cell === 'base-2'`)
+	eval[bool](tb, `(document.getElementById('add-kind').value = 'note', true)`)
+	eval[bool](tb, key("n"))
+	tb.wait(`!!document.getElementById('cell-note')`)
+	if got, want := order(), "intro base chain base-2 note chart"; got != want {
+		t.Errorf("cells in order %q, want %q", got, want)
+	}
+	// The note's markdown previews live, with mathematics as MathML.
+	eval[bool](tb, `(() => { document.querySelector('#cell-note .note-toggle').click();
+		const a = document.querySelector('#cell-note .note-src');
+		a.value = '**Rate** $h^{k}$ <script>window.pwned = 1</script>'; a.dispatchEvent(new Event('input')); return true })()`)
+	tb.wait(`!!document.querySelector('#cell-note .note-body math msup') && !!document.querySelector('#cell-note .note-body strong')`)
+	if p := eval[any](tb, `window.pwned`); p != nil {
+		t.Error("a script in a note ran")
+	}
+	tb.screenshot("editing")
+	// The printable report carries the caution and the cells.
+	rep := eval[string](tb, `ask('report', {doc: docText()}).then(r => r.html)`)
+	for _, want := range []string{"Caution.", "licensed engineers", `id="cell-base-2"`, "Content-Security-Policy"} {
+		if !strings.Contains(rep, want) {
+			t.Errorf("report lacks %q", want)
+		}
+	}
 }
 
 func TestSaveReloadShareAutosave(t *testing.T) {
