@@ -430,7 +430,9 @@ func TestEditingCells(t *testing.T) {
 	key := func(k string) string {
 		return `(document.dispatchEvent(new KeyboardEvent('keydown', {key: '` + k + `', altKey: true, bubbles: true})), true)`
 	}
-	order := func() string { return strings.Join(eval[[]string](tb, `[...document.querySelectorAll('.cell')].map(c => c.dataset.cell)`), " ") }
+	order := func() string {
+		return strings.Join(eval[[]string](tb, `[...document.querySelectorAll('.cell')].map(c => c.dataset.cell)`), " ")
+	}
 	// Duplicate base (Alt+C), move the copy down (Alt+↓), add a note (Alt+N).
 	eval[bool](tb, `(focusCell('base'), true)`)
 	eval[bool](tb, key("c"))
