@@ -84,8 +84,11 @@ type Terms struct {
 	Residual, Mean, Osc float64
 	// Energy is J(v) = ∫ G(∇v) − f v.
 	Energy float64
-	// Degree is the quadrature degree used on every cell.
+	// Degree is the degree of the base quadrature rule (as Quadrature.Degree).
 	Degree int
+	// Quadrature says how the integrals were computed and how large their
+	// estimated error is (already added to D and the residual norms).
+	Quadrature Quadrature
 
 	res, mean, osc []float64 // per-cell ‖r‖^{α'}, ‖Π0 r‖^{α'}, (C_P‖r−Π0r‖)^{α'}
 	grad           [][2]float64
@@ -113,7 +116,11 @@ func physical(s *fem.P1, k int, lam [3]float64) (x, y float64) {
 
 // EvaluateTerms computes the terms of (E-ID) for v (nodal values on s) and
 // y by the quadrature rule of the given degree on every cell (0:
-// DefaultDegree).
+// DefaultDegree), with a safeguard: a cell where y* or r comes near zero
+// (|y*|, |y*|^{α'}, |r|^{α'} are not smooth there) is integrated by adaptive
+// subdivision (bounds_quad.go), and the estimated remaining error of those
+// cells is added to D and to the residual norms as a safety margin (see
+// Quadrature).
 func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Terms, error) {
 	if s == nil || p.G == nil || p.F == nil || y == nil {
 		return nil, errors.New("estimate: need a P1 space, a potential, a source f and a flux")
@@ -132,20 +139,35 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		osc: make([]float64, nc), grad: make([][2]float64, nc), area: s.Area}
 	s.Gradient(v, t.grad)
 	rule := s.Rule(degree)
-	rbuf := make([]float64, rule.Len())
-	wbuf := make([]float64, rule.Len())
-	diam := s.Mesh.Diameters()
+	nq := rule.Len()
+	lams := make([][3]float64, nq)
+	wref := make([]float64, nq)
+	for q, pt := range rule.Points {
+		var scale float64
+		lams[q], scale = cellPoint(s.Mesh.Dim, pt)
+		wref[q] = rule.Weights[q] * scale
+	}
+	rbuf := make([]float64, nq)
+	wbuf := make([]float64, nq)
+	gp := newGapper(p.G)
 	dim := s.Mesh.Dim
-	var sumD, sumRes, sumMean, sumOsc, energy float64
+	// Pass 1: the base rule on every cell; the residual powers by a bound
+	// where r may vanish, cells where y* may vanish remembered for pass 2.
+	var suspects []int
+	var energy, area, totalD float64
 	for k, c := range s.Mesh.Cells {
 		g := t.grad[k]
-		var dk, mk, wk, fv float64
-		for q, pt := range rule.Points {
-			lam, scale := cellPoint(dim, pt)
-			w := rule.Weights[q] * scale * s.Area[k]
+		var dk, mk, fv float64
+		smin, smax := math.Inf(1), 0.0
+		rmin, rmax := math.Inf(1), math.Inf(-1)
+		var fmax float64
+		for q, lam := range lams {
+			w := wref[q] * s.Area[k]
 			x, yy := physical(s, k, lam)
 			ys, div := y.At(k, lam)
-			dk += w * convex.Gap(p.G, g, ys)
+			dk += w * gp.gap(g, ys)
+			sy := math.Sqrt(ys[0]*ys[0] + ys[1]*ys[1])
+			smin, smax = math.Min(smin, sy), math.Max(smax, sy)
 			fx := p.F(x, yy)
 			vx := 0.0
 			for a := range dim + 1 {
@@ -153,26 +175,59 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 			}
 			fv += w * fx * vx
 			r := fx + div
+			fmax = math.Max(fmax, math.Abs(fx)+math.Abs(div))
+			rmin, rmax = math.Min(rmin, r), math.Max(rmax, r)
 			rbuf[q], wbuf[q] = r, w
 			mk += w * r
-			wk += w
 		}
-		mk /= wk
-		var rk, ok float64
-		for q, r := range rbuf {
-			rk += wbuf[q] * math.Pow(math.Abs(r), conj)
-			ok += wbuf[q] * math.Pow(math.Abs(r-mk), conj)
+		mk /= s.Area[k]
+		rabs := math.Min(math.Abs(rmin), math.Abs(rmax))
+		if rmin <= 0 && rmax >= 0 {
+			rabs = 0
 		}
-		cp := convex.PoincareConvex(alpha, diam[k])
+		// r − Π0 r has zero mean, so it vanishes in every cell: its power is
+		// always bounded through even powers (exact for α' = 2).
+		rk, ok := 0.0, residualPower(rbuf, wbuf, mk, conj, rule.Degree)
+		if conj == 2 || rabs > nearZero*(rmax-rmin) || math.Max(-rmin, rmax) <= roundoff*fmax {
+			for q, r := range rbuf {
+				rk += wbuf[q] * absPow(r, conj)
+			}
+		} else {
+			rk = residualPower(rbuf, wbuf, 0, conj, rule.Degree)
+			t.Quadrature.Holder++
+		}
 		t.Cell[k] = dk
 		t.res[k] = rk
-		t.mean[k] = s.Area[k] * math.Pow(math.Abs(mk), conj)
-		t.osc[k] = math.Pow(cp, conj) * ok
-		sumD += dk
-		sumRes += rk
+		t.mean[k] = s.Area[k] * absPow(mk, conj)
+		t.osc[k] = ok
+		totalD += dk
+		area += s.Area[k]
+		energy += s.Area[k]*convex.Value(p.G, g) - fv
+		if smin <= nearZero*(smax-smin) {
+			suspects = append(suspects, k)
+		}
+	}
+	// Pass 2: adaptive subdivision of the suspect cells, to a tolerance
+	// relative to the cell value or to the cell's area share of the total.
+	cq := cellQuad{s: s, y: y, gp: &gp, rule: rule, dim: dim}
+	for _, k := range suspects {
+		var acc, errs float64
+		cq.budget = cellBudget
+		cq.refine(k, t.grad[k], unitSimplex, 1, t.Cell[k], 1, gapTol*totalD*s.Area[k]/area, &acc, &errs)
+		t.Cell[k] = acc + errs
+		t.Quadrature.GapError += errs
+		t.Quadrature.Subdivided++
+	}
+	t.Quadrature.Degree, t.Quadrature.Points, t.Quadrature.Depth = degree, nq, cq.depth
+	t.Quadrature.ExtraPoints = cq.evals
+	var sumD, sumRes, sumMean, sumOsc float64
+	diam := s.Mesh.Diameters()
+	for k := range s.Mesh.Cells {
+		t.osc[k] *= math.Pow(convex.PoincareConvex(alpha, diam[k]), conj)
+		sumD += t.Cell[k]
+		sumRes += t.res[k]
 		sumMean += t.mean[k]
 		sumOsc += t.osc[k]
-		energy += s.Area[k]*convex.Value(p.G, g) - fv
 	}
 	t.D = sumD
 	t.Residual = math.Pow(sumRes, 1/conj)
@@ -185,6 +240,42 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		}
 	}
 	return t, nil
+}
+
+// roundoff is the size of r = f + div y*, relative to |f| + |div y*|, below
+// which r is rounding noise of an equilibrated flux and needs no
+// subdivision.
+const roundoff = 1e-10
+
+// Quadrature reports how the cell integrals of Terms were computed.
+type Quadrature struct {
+	// Degree is the exactness degree of the base rule, Points its size.
+	Degree, Points int
+	// Subdivided counts the cells where ∫D_G was computed by adaptive
+	// subdivision (y* near zero somewhere in the cell); Depth is the deepest
+	// level reached and ExtraPoints the number of points this cost.
+	Subdivided, Depth, ExtraPoints int
+	// GapError is the estimated remaining error of ∫D_G in the subdivided
+	// cells (the last difference between two subdivision levels); it is
+	// already added to D as a safety margin.
+	GapError float64
+	// Holder counts the cells where r comes near zero, so that |r|^{α'} is
+	// not smooth: there ∫|r|^{α'} is replaced by its Hölder bound through
+	// the smooth even powers (see residualPower). ∫|r − Π0 r|^{α'} is always
+	// bounded so, since r − Π0 r has zero mean and vanishes in every cell.
+	Holder int
+}
+
+// String summarises the quadrature for the assumptions of a result.
+func (q Quadrature) String() string {
+	s := "cell integrals by a quadrature rule of degree " + strconv.Itoa(q.Degree) + " (" + strconv.Itoa(q.Points) + " points)"
+	if q.Subdivided > 0 {
+		s += "; " + strconv.Itoa(q.Subdivided) + " cells where y* comes near zero subdivided adaptively (depth " +
+			strconv.Itoa(q.Depth) + "), estimated remaining error " + strconv.FormatFloat(q.GapError, 'e', 1, 64) +
+			" added to D as a safety margin"
+	}
+	s += "; ∫|r − Π0 r|^α' and, in " + strconv.Itoa(q.Holder) + " cells where r comes near zero, ∫|r|^α' bounded by Hölder's inequality through the even powers r^2m, r^(2m+2) around α'"
+	return s
 }
 
 // Result holds the bounds of MATH.md §4 for one v and one flux.
@@ -313,7 +404,7 @@ func (t *Terms) Bounds(c Constant, mod convex.Modulus) (*Result, error) {
 		r.Label = convex.Estimate
 	}
 	r.Assumptions = []string{
-		"cell integrals by a quadrature rule of degree " + strconv.Itoa(t.Degree),
+		t.Quadrature.String(),
 		"Friedrichs constant " + strconv.FormatFloat(c.Value, 'g', 6, 64) + " (" + c.Label.String() + ", " + c.Method + ")",
 		"modulus " + mod.Label.String(),
 	}

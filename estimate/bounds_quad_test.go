@@ -1,0 +1,143 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gapbook/convex"
+	"gapbook/fem"
+)
+
+// TestPowerGap checks the closed form and series of the power gap against
+// convex.Gap (an independent evaluation: Gauss rule of expm1/log1p forms)
+// over ratios |ξ|/τ from 1e-3 to 1e3 and angles, within the conditioning
+// of d (rounding of t alone changes d by 2ε t |g'(t) − s| / d relative).
+func TestPowerGap(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	for _, alpha := range []float64{1.1, 1.5, 2, 3, 4, 6, 10.5} {
+		G := must(convex.Power(alpha))
+		gp := newGapper(G)
+		if !gp.power {
+			t.Fatalf("α=%g: the power potential was not recognised", alpha)
+		}
+		for i := range 4000 {
+			s := math.Exp(4 * (2*rng.Float64() - 1))
+			tau := math.Pow(s, 1/(alpha-1))
+			var x float64
+			switch i % 4 {
+			case 0:
+				x = 1 + 1e-6*(2*rng.Float64()-1)
+			case 1:
+				x = 1 + 0.3*(2*rng.Float64()-1)
+			default:
+				x = math.Exp(7 * (2*rng.Float64() - 1))
+			}
+			th := 0.0
+			if i%3 == 0 {
+				th = 0.3 * rng.Float64()
+			}
+			xi := [2]float64{x * tau, 0}
+			eta := [2]float64{s * math.Cos(th), s * math.Sin(th)}
+			got, want := gp.gap(xi, eta), convex.Gap(G, xi, eta)
+			tt := x * tau
+			cond := 1e-15 * tt * math.Abs(math.Pow(tt, alpha-1)-s)
+			if math.Abs(got-want) > 1e-12*want+4*cond || got < 0 {
+				t.Fatalf("α=%g ξ=%v η=%v: gap %.17g, convex.Gap %.17g", alpha, xi, eta, got, want)
+			}
+		}
+		for _, c := range [][2][2]float64{{{0, 0}, {1, 0}}, {{2, 0}, {0, 0}}, {{0, 0}, {0, 0}}} {
+			if got, want := gp.gap(c[0], c[1]), convex.Gap(G, c[0], c[1]); math.Abs(got-want) > 1e-14*want {
+				t.Errorf("α=%g: gap(%v, %v) = %g, want %g", alpha, c[0], c[1], got, want)
+			}
+		}
+	}
+	// Other potentials are passed through unchanged.
+	for _, G := range []convex.Potential{must(convex.Quadratic(2)), must(convex.RegPower(3, 0.1))} {
+		gp := newGapper(G)
+		xi, eta := [2]float64{0.3, 0.4}, [2]float64{0.5, 0.1}
+		if gp.power || gp.gap(xi, eta) != convex.Gap(G, xi, eta) {
+			t.Errorf("%v: treated as a power potential", G)
+		}
+	}
+}
+
+// TestChildren checks that sub-cells tile the parent: the degree-8 rule
+// applied to every sub-cell of two levels integrates λ0⁴ λ1² (degree 6, so
+// exact on each sub-cell) to its exact value 4! 2! d!/(6 + d)! times the
+// cell measure (the standard simplex moment formula).
+func TestChildren(t *testing.T) {
+	for _, dim := range []int{1, 2} {
+		t.Run(fmt.Sprint(dim), func(t *testing.T) {
+			var rule fem.Rule
+			if dim == 1 {
+				rule = fem.Line(8)
+			} else {
+				rule = fem.Triangle(8)
+			}
+			var sum float64
+			ch, n := children(dim, unitSimplex)
+			for _, c := range ch[:n] {
+				gc, gn := children(dim, c)
+				for _, sc := range gc[:gn] {
+					for i, pt := range rule.Points {
+						ref, scale := cellPoint(dim, pt)
+						var lam [3]float64
+						for a := range dim + 1 {
+							for b := range dim + 1 {
+								lam[b] += ref[a] * sc[a][b]
+							}
+						}
+						sum += rule.Weights[i] * scale * math.Pow(lam[0], 4) * lam[1] * lam[1] / float64(n*gn)
+					}
+				}
+			}
+			want := 24.0 * 2 / 5040 // d = 1: 4! 2! 1!/7!
+			if dim == 2 {
+				want = 24.0 * 2 * 2 / 40320 // 4! 2! 2!/8!
+			}
+			if math.Abs(sum-want) > 1e-14 {
+				t.Errorf("∫λ0⁴λ1² over the sub-cells = %.16g, want %.16g", sum, want)
+			}
+		})
+	}
+}
+
+// TestResidualPower checks the Hölder bound of ∫|r|^a: it is never below
+// the integral (computed by a 1-D Gauss rule split at the zero of r) and
+// equals it for a = 2 and a = 4 (an identity). The rule (degree 8) must
+// integrate r^{2m+2} of the quadratic r: a ≤ 6 here.
+func TestResidualPower(t *testing.T) {
+	rule := fem.Line(8)
+	for _, a := range []float64{4.0 / 3, 1.5, 2, 3, 4, 5.5} {
+		for _, z := range []float64{-0.5, 0.17, 0.5, 0.93} {
+			r := func(x float64) float64 { return x - z + 0.3*x*x }
+			var rv, wv []float64
+			for i, pt := range rule.Points {
+				rv = append(rv, r(pt[0]))
+				wv = append(wv, rule.Weights[i])
+			}
+			got := residualPower(rv, wv, 0, a, rule.Degree)
+			// Exact: r has one zero x0 in [0, 1] or none; Gauss on each side.
+			var want float64
+			x0 := (-1 + math.Sqrt(1+1.2*z)) / 0.6
+			pieces := [][2]float64{{0, 1}}
+			if x0 > 0 && x0 < 1 {
+				pieces = [][2]float64{{0, x0}, {x0, 1}}
+			}
+			for _, pc := range pieces {
+				xs, ws := fem.Gauss(40, pc[0], pc[1])
+				for i, x := range xs {
+					want += ws[i] * math.Pow(math.Abs(r(x)), a)
+				}
+			}
+			if got < want*(1-1e-12) || ((a == 2 || a == 4) && math.Abs(got-want) > 1e-12*want) {
+				t.Errorf("a=%g zero %g: bound %.15g, ∫|r|^a = %.15g", a, z, got, want)
+			}
+			if testing.Verbose() {
+				t.Logf("a=%-6.4g zero %-5g bound/∫ = %.4f", a, z, got/want)
+			}
+		}
+	}
+}
