@@ -177,7 +177,8 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 	add("energy", r.Energy, Estimate, fmt.Sprintf("J(v), quadrature of degree %d", r.Degree))
 	add("gap_integral", r.D, Estimate, "∫ D_G(∇v, y*), quadrature")
 	add("residual_term", r.R.Value, lab, fmt.Sprintf("R in ∫ r(u − v) ≤ R ‖∇(u − v)‖, %s form", r.Form))
-	add("theta", r.Theta, lab, "θ of the Young form (1 − θ)μ + μ* ≤ …")
+	// θ is a parameter of the inequality, not a bound of anything.
+	add("theta", r.Theta, Estimate, "θ at which the Young form (1 − θ)μ + μ* ≤ young_rhs equals the majorant")
 	if !math.IsNaN(r.YoungRHS) {
 		add("young_rhs", r.YoungRHS, lab, "right side of the Young form at that θ")
 	}

@@ -90,8 +90,8 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 		if math.Abs(*g.Value-v) > 1e-12*math.Abs(v) {
 			t.Errorf("%s: JSON %.17g, direct %.17g", name, *g.Value, v)
 		}
-		if g.Label != Guaranteed {
-			t.Errorf("%s: label %s", name, g.Label)
+		if want := map[bool]Label{true: Estimate, false: Guaranteed}[name == "theta"]; g.Label != want {
+			t.Errorf("%s: label %s, want %s", name, g.Label, want)
 		}
 	}
 }

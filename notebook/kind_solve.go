@@ -23,7 +23,7 @@ const errorDegree = 8
 
 func (solveKind) Name() string { return "solve" }
 func (solveKind) Doc() string {
-	return "The P1 finite element solution v minimising J(w) = ∫ G(∇w) − f w with w = u_D at the boundary nodes, by Newton's method with multigrid."
+	return "The P1 finite element solution v minimising J(w) = ∫ G(∇w) − f w with w = u_D at the boundary nodes, by Newton's method with multigrid (for a problem with a time horizon: its data at t = 0; use an evolve cell for the evolution)."
 }
 func (solveKind) Inputs() []Input {
 	return []Input{
