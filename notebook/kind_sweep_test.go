@@ -98,3 +98,33 @@ func TestAdapt(t *testing.T) {
 		t.Errorf("1-D adapt: %v", o.Err)
 	}
 }
+
+// Input errors of the numerical kinds name the cell and the input.
+func TestKindInputErrors(t *testing.T) {
+	base := []string{
+		kc("p", "problem", map[string]any{"domain": "rectangle"}),
+		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
+		kc("s", "solve", map[string]any{"mesh": "m"}),
+	}
+	cases := []struct {
+		cell string
+		want string
+	}{
+		{kc("x", "mesh", map[string]any{"problem": "p", "h": 1e-9}), "cell x: input h: "},
+		{kc("x", "mesh", map[string]any{"problem": "s"}), "cell x: input problem: "},
+		{kc("x", "constant", map[string]any{"mesh": "m", "alpha": 0.5}), "cell x: input alpha: want 0 (the problem's exponent) or a number > 1, got 0.5"},
+		{kc("x", "bound", map[string]any{"solution": "s", "order": 2}), "cell x: input order: want a whole number ≥ 0 and ≤ 1, got 2"},
+		{kc("x", "bound", map[string]any{"solution": "s", "flux": "smoothed"}), "cell x: input flux: want one of equilibrated, minimised, averaged, got \"smoothed\""},
+		{kc("x", "solve", map[string]any{"mesh": "m", "max_newton": 1}), "cell x: input max_newton: newton: "},
+		{kc("x", "adapt", map[string]any{"problem": "p", "share": 0}), "cell x: input share: want a number > 0 and ≤ 1, got 0"},
+		{kc("x", "sweep", map[string]any{"cell": "p", "values": []float64{}, "through": "s"}), "cell x: input values: empty; give at least one value"},
+		{kc("x", "evolve", map[string]any{"mesh": "m", "in_time": "cubic"}), "cell x: input in_time: want one of linear in time, constant in time"},
+	}
+	for _, tc := range cases {
+		ev := evalCells(t, append(base, tc.cell)...)
+		o := ev.Cell("x")
+		if o.Status != StatusError || !strings.HasPrefix(o.Err.Error(), tc.want) {
+			t.Errorf("got %v\nwant prefix %q", o.Err, tc.want)
+		}
+	}
+}
