@@ -253,28 +253,34 @@ func Equilibrate(ctx context.Context, s *fem.P1, G convex.Potential, v []float64
 	if len(v) != m.NumNodes() {
 		return nil, fmt.Errorf("equilibrated flux: v has %d values for a mesh of %d nodes", len(v), m.NumNodes())
 	}
-	e := &Equilibrated{order: opt.Order}
-	nc := m.NumCells()
-	e.coef = make([][6][2]float64, nc)
-	e.div = make([][3]float64, nc)
-	e.proj = make([][3]float64, nc)
+	if m.Dim == 2 {
+		q, err := newEquilibrator(s, opt.Order)
+		if err != nil {
+			return nil, err
+		}
+		return q.flux(ctx, G, v, f, opt)
+	}
+	e := newEquilibrated(m.NumCells(), opt.Order)
 	if err := e.project(s, f, opt.Degree); err != nil {
 		return nil, err
 	}
-	var err error
-	if m.Dim == 1 {
-		err = e.equilibrate1(s, G, v)
-	} else {
-		err = e.equilibrate2(ctx, s, G, v, opt)
-	}
-	if err != nil {
+	if err := e.equilibrate1(s, G, v); err != nil {
 		return nil, err
 	}
-	nv := m.Dim + 1
-	for k := range nc {
+	e.finish(s)
+	return e, nil
+}
+
+func newEquilibrated(nc, order int) *Equilibrated {
+	return &Equilibrated{order: order, coef: make([][6][2]float64, nc), div: make([][3]float64, nc), proj: make([][3]float64, nc)}
+}
+
+// finish sets the divergence coefficients from the quadratic forms.
+func (e *Equilibrated) finish(s *fem.P1) {
+	nv := s.Mesh.Dim + 1
+	for k := range e.coef {
 		e.div[k] = divergence(&e.coef[k], &s.Grad[k], nv)
 	}
-	return e, nil
 }
 
 // project sets proj to Π_k f: the cell mean (k = 0) or the L² projection

@@ -4,7 +4,10 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
+
+	"gonum.org/v1/gonum/floats"
 
 	"gapbook/convex"
 	"gapbook/fem"
@@ -136,44 +139,151 @@ func (e *Equilibrated) equilibrate1(s *fem.P1, G convex.Potential, v []float64) 
 	return nil
 }
 
-// equilibrate2 is the 2-D reconstruction described at Equilibrate.
-func (e *Equilibrated) equilibrate2(ctx context.Context, s *fem.P1, G convex.Potential, v []float64, opt EquilibrateOptions) error {
+// equilibrator holds what the 2-D reconstruction builds from the mesh
+// alone: the edges, a spanning tree of the dual graph, and the stream space
+// with its multigrid hierarchy and matrix pattern. A sequence of fluxes on
+// one mesh (the time steps of an evolution) pays for them once.
+type equilibrator struct {
+	s         *fem.P1
+	order     int
+	rt        *fem.RT0
+	edgeCells [][2]int32
+	// queue lists the cells in breadth-first order from the boundary;
+	// parent[k] is the local edge of cell k towards the root.
+	queue  []int32
+	parent []int8
+	st     *stream
+	// owner is the flux whose quadratic model the stream matrix holds.
+	owner    *Equilibrated
+	edgeFlux []float64
+	grad     [][2]float64
+	sigma    [][2]float64
+}
+
+func newEquilibrator(s *fem.P1, order int) (*equilibrator, error) {
 	m := s.Mesh
 	rt, err := fem.NewRT0(m)
 	if err != nil {
-		return fmt.Errorf("equilibrated flux: %w", err)
+		return nil, fmt.Errorf("equilibrated flux: %w", err)
 	}
 	nc, ne, nn := m.NumCells(), rt.NumEdges(), m.NumNodes()
 	if h := ne - nn - nc + 1; h != 0 {
-		return fmt.Errorf("equilibrated flux: the mesh has Euler characteristic %d (%d nodes, %d edges, %d cells); the stream-function correction needs a connected domain without holes", nn-ne+nc, nn, ne, nc)
+		return nil, fmt.Errorf("equilibrated flux: the mesh has Euler characteristic %d (%d nodes, %d edges, %d cells); the stream-function correction needs a connected domain without holes", nn-ne+nc, nn, ne, nc)
 	}
-	grad := make([][2]float64, nc)
-	s.Gradient(v, grad)
-	sigma := make([][2]float64, nc)
-	var gmax float64
-	for k := range nc {
-		sigma[k] = convex.Flux(G, grad[k])
-		gmax = math.Max(gmax, math.Hypot(grad[k][0], grad[k][1]))
-	}
-	// Edge fluxes of σ averaged across each edge, and the cells of each edge.
-	flux := make([]float64, ne)
+	q := &equilibrator{s: s, order: order, rt: rt, edgeCells: make([][2]int32, ne),
+		edgeFlux: make([]float64, ne), grad: make([][2]float64, nc), sigma: make([][2]float64, nc)}
 	count := make([]int8, ne)
-	edgeCells := make([][2]int32, ne)
+	for k := range nc {
+		for i := range 3 {
+			ed := rt.CellEdges[k][i]
+			q.edgeCells[ed][count[ed]] = int32(k)
+			count[ed]++
+		}
+	}
+	if err := q.tree(); err != nil {
+		return nil, err
+	}
+	if q.st, err = newStream(s, rt, order); err != nil {
+		return nil, err
+	}
+	return q, nil
+}
+
+// flux is the 2-D reconstruction described at Equilibrate.
+func (q *equilibrator) flux(ctx context.Context, G convex.Potential, v []float64, f Source, opt EquilibrateOptions) (*Equilibrated, error) {
+	s, rt := q.s, q.rt
+	m := s.Mesh
+	nc := m.NumCells()
+	e := newEquilibrated(nc, q.order)
+	if err := e.project(s, f, opt.Degree); err != nil {
+		return nil, err
+	}
+	gmax := q.gradients(G, v)
+	// Edge fluxes of σ averaged across each edge.
+	flux := q.edgeFlux
+	clear(flux)
 	for k := range nc {
 		for i := range 3 {
 			ed := rt.CellEdges[k][i]
 			nx, ny := rt.Normal(m, int(ed))
-			flux[ed] += rt.Length[ed] * (sigma[k][0]*nx + sigma[k][1]*ny)
-			edgeCells[ed][count[ed]] = int32(k)
-			count[ed]++
+			w := 0.5
+			if rt.OnBoundary[ed] {
+				w = 1
+			}
+			flux[ed] += w * rt.Length[ed] * (q.sigma[k][0]*nx + q.sigma[k][1]*ny)
 		}
 	}
-	for ed := range flux {
-		flux[ed] /= float64(count[ed])
+	q.balance(e.proj, flux)
+	q.addFields(e, flux, e.proj)
+	reg := opt.Reg * gmax
+	if reg == 0 {
+		reg = opt.Reg
 	}
-	if err := e.balance(rt, s.Area, flux, edgeCells); err != nil {
-		return err
+	q.owner = nil
+	if err := q.st.minimise(ctx, e, G, q.grad, q.sigma, reg, opt); err != nil {
+		return nil, err
 	}
+	if opt.Newton == 0 {
+		q.owner = e
+	}
+	e.finish(s)
+	return e, nil
+}
+
+// shift returns the flux for v against the load f, where y was built by
+// q.flux from the same v against the load f − df. The quadratic model of
+// the stream minimisation depends on v only and its minimiser is affine in
+// the load, so y plus the minimising correction for df is the flux that
+// q.flux would return, at the cost of one solve with the matrix already
+// set up (no assembly, no multigrid update, no evaluation of f). When y
+// does not hold the current model (another flux was built since, or Newton
+// steps followed the model), it is q.flux(v, f).
+func (q *equilibrator) shift(ctx context.Context, G convex.Potential, y *Equilibrated, v []float64, df, f Source, opt EquilibrateOptions) (*Equilibrated, error) {
+	if y == nil || y != q.owner || opt.Newton > 0 {
+		return q.flux(ctx, G, v, f, opt)
+	}
+	s := q.s
+	nc := s.Mesh.NumCells()
+	d := newEquilibrated(nc, q.order)
+	if err := d.project(s, df, 2); err != nil {
+		return nil, err
+	}
+	e := &Equilibrated{order: y.order, coef: append([][6][2]float64(nil), y.coef...),
+		div: make([][3]float64, nc), proj: make([][3]float64, nc)}
+	for k := range nc {
+		for a := range 3 {
+			e.proj[k][a] = y.proj[k][a] + d.proj[k][a]
+		}
+	}
+	flux := q.edgeFlux
+	clear(flux)
+	q.balance(d.proj, flux)
+	q.addFields(e, flux, d.proj)
+	q.gradients(G, v)
+	if err := q.st.correct(ctx, e, q.sigma, opt); err != nil {
+		return nil, err
+	}
+	q.owner = e
+	e.finish(s)
+	return e, nil
+}
+
+// gradients sets grad = ∇v and sigma = ∂G(∇v) per cell and returns max|∇v|.
+func (q *equilibrator) gradients(G convex.Potential, v []float64) float64 {
+	q.s.Gradient(v, q.grad)
+	var gmax float64
+	for k, g := range q.grad {
+		q.sigma[k] = convex.Flux(G, g)
+		gmax = math.Max(gmax, math.Hypot(g[0], g[1]))
+	}
+	return gmax
+}
+
+// addFields adds to e the RT0 field of the edge fluxes and, for k = 1, the
+// interior fields that balance the mean-free part of proj.
+func (q *equilibrator) addFields(e *Equilibrated, flux []float64, proj [][3]float64) {
+	s, rt := q.s, q.rt
+	m := s.Mesh
 	for k, c := range m.Cells {
 		var Y [3][2]float64
 		for i := range 3 {
@@ -186,29 +296,19 @@ func (e *Equilibrated) equilibrate2(ctx context.Context, s *fem.P1, G convex.Pot
 			}
 		}
 		addLinear(&e.coef[k], Y, 3)
-		if e.order == 1 {
-			e.addBubbles(k, &s.Grad[k])
+		if q.order == 1 {
+			addBubbles(&e.coef[k], &proj[k], &s.Grad[k])
 		}
 	}
-	st, err := newStream(s, rt, e.order)
-	if err != nil {
-		return err
-	}
-	reg := opt.Reg * gmax
-	if reg == 0 {
-		reg = opt.Reg
-	}
-	return st.minimise(ctx, e, G, grad, sigma, reg, opt)
 }
 
-// balance corrects the edge fluxes along a spanning tree of the dual graph
-// (cells joined across interior edges, the outside reached through boundary
-// edges) so that the outflow Σ_i sign_i F_i of every cell equals
-// −|T| Π0 f: leaves first, each cell pushes its defect through the edge to
-// its parent.
-func (e *Equilibrated) balance(rt *fem.RT0, area, flux []float64, edgeCells [][2]int32) error {
-	nc := len(area)
-	parent := make([]int32, nc)
+// tree builds a spanning tree of the dual graph (cells joined across
+// interior edges, the outside reached through boundary edges) by breadth-
+// first search from the boundary cells.
+func (q *equilibrator) tree() error {
+	rt := q.rt
+	nc := len(rt.CellEdges)
+	parent := make([]int8, nc)
 	for k := range parent {
 		parent[k] = -1
 	}
@@ -216,7 +316,7 @@ func (e *Equilibrated) balance(rt *fem.RT0, area, flux []float64, edgeCells [][2
 	for k := range nc {
 		for i := range 3 {
 			if ed := rt.CellEdges[k][i]; rt.OnBoundary[ed] {
-				parent[k] = int32(i)
+				parent[k] = int8(i)
 				queue = append(queue, int32(k))
 				break
 			}
@@ -229,26 +329,36 @@ func (e *Equilibrated) balance(rt *fem.RT0, area, flux []float64, edgeCells [][2
 			if rt.OnBoundary[ed] {
 				continue
 			}
-			q := edgeCells[ed][0]
-			if q == k {
-				q = edgeCells[ed][1]
+			c := q.edgeCells[ed][0]
+			if c == k {
+				c = q.edgeCells[ed][1]
 			}
-			if parent[q] < 0 {
+			if parent[c] < 0 {
 				for j := range 3 {
-					if rt.CellEdges[q][j] == ed {
-						parent[q] = int32(j)
+					if rt.CellEdges[c][j] == ed {
+						parent[c] = int8(j)
 					}
 				}
-				queue = append(queue, q)
+				queue = append(queue, c)
 			}
 		}
 	}
 	if len(queue) != nc {
 		return fmt.Errorf("equilibrated flux: %d of %d cells cannot be reached from the boundary across edges; the mesh is not connected", nc-len(queue), nc)
 	}
+	q.queue, q.parent = queue, parent
+	return nil
+}
+
+// balance corrects the edge fluxes along the spanning tree so that the
+// outflow Σ_i sign_i F_i of every cell equals −|T| mean(proj): leaves
+// first, each cell pushes its defect through the edge to its parent.
+func (q *equilibrator) balance(proj [][3]float64, flux []float64) {
+	rt, area := q.rt, q.s.Area
+	nc := len(area)
 	defect := make([]float64, nc)
 	for k := range nc {
-		p := &e.proj[k]
+		p := &proj[k]
 		d := -area[k] * (p[0] + p[1] + p[2]) / 3
 		for i := range 3 {
 			d -= float64(rt.Sign[k][i]) * flux[rt.CellEdges[k][i]]
@@ -256,8 +366,8 @@ func (e *Equilibrated) balance(rt *fem.RT0, area, flux []float64, edgeCells [][2
 		defect[k] = d
 	}
 	for idx := nc - 1; idx >= 0; idx-- {
-		k := queue[idx]
-		i := parent[k]
+		k := q.queue[idx]
+		i := q.parent[k]
 		ed := rt.CellEdges[k][i]
 		df := float64(rt.Sign[k][i]) * defect[k]
 		flux[ed] += df
@@ -265,17 +375,16 @@ func (e *Equilibrated) balance(rt *fem.RT0, area, flux []float64, edgeCells [][2
 		if rt.OnBoundary[ed] {
 			continue
 		}
-		q := edgeCells[ed][0]
-		if q == k {
-			q = edgeCells[ed][1]
+		c := q.edgeCells[ed][0]
+		if c == k {
+			c = q.edgeCells[ed][1]
 		}
 		for j := range 3 {
-			if rt.CellEdges[q][j] == ed {
-				defect[q] -= float64(rt.Sign[q][j]) * df
+			if rt.CellEdges[c][j] == ed {
+				defect[c] -= float64(rt.Sign[c][j]) * df
 			}
 		}
 	}
-	return nil
 }
 
 // perp is the rotation R a = (a_y, −a_x); R∇ψ is the curl of a stream
@@ -300,7 +409,9 @@ func pinnedCopy(m *mesh.Mesh) *mesh.Mesh {
 
 // stream is the stream-function space P1 (k = 0) or hierarchical P2
 // (k = 1: P1 plus the edge bubbles 4λ_jλ_k) with node 0 pinned, and the
-// solver of its weighted stiffness systems.
+// solver of its weighted stiffness systems. It keeps the matrix of the
+// latest quadratic model and its multigrid, so that a later model with the
+// same weights (α = 2, or a load change only) reuses both.
 type stream struct {
 	s     *fem.P1 // the original space: geometry
 	ps    *fem.P1 // pinned P1
@@ -313,6 +424,24 @@ type stream struct {
 	pos   [][36]int32 // position in a.Val of local entry (a, b), k = 1
 	diag  []float64   // diagonal of a, for Jacobi on the bubbles
 	rule  fem.Rule
+	lams  [][3]float64
+	coef  [][3]float64
+	// gvec and hess are the gradient and the weight of the model at the
+	// quadrature points; held is the weight the matrix was built from.
+	gvec       [][2]float64
+	hess, held [][3]float64
+	b, x       []float64
+	// assembled: the matrix holds held; fresh: the multigrid was updated
+	// for it; refIters is the CG count of the first solve after the last
+	// multigrid update, lastIters that of the latest solve.
+	assembled, fresh bool
+	tol              float64
+	// warm holds the stream values of the latest model solve of flux
+	// (a start for the next one, whose optimum moves little between time
+	// steps) and bnorm the norm of its right side.
+	warm                []float64
+	bnorm               float64
+	refIters, lastIters int
 }
 
 func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
@@ -326,7 +455,8 @@ func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
 		return nil, fmt.Errorf("equilibrated flux: stream space: %w", err)
 	}
 	m := s.Mesh
-	st.dof = make([][6]int32, m.NumCells())
+	nc := m.NumCells()
+	st.dof = make([][6]int32, nc)
 	for k, c := range m.Cells {
 		for a := range 3 {
 			st.dof[k][a] = ps.Free[c[a]]
@@ -340,12 +470,23 @@ func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
 	if order == 0 {
 		st.a = st.pa
 		st.rule = fem.Triangle(2)
-		return st, nil
+	} else {
+		st.n += rt.NumEdges()
+		st.a, st.pos = cellMatrix(st.n, st.dof)
+		st.diag = make([]float64, st.n)
+		st.rule = fem.Triangle(4)
 	}
-	st.n += rt.NumEdges()
-	st.a, st.pos = cellMatrix(st.n, st.dof)
-	st.diag = make([]float64, st.n)
-	st.rule = fem.Triangle(4)
+	nq := st.rule.Len()
+	st.lams = make([][3]float64, nq)
+	for q, p := range st.rule.Points {
+		st.lams[q] = [3]float64{1 - p[0] - p[1], p[0], p[1]}
+	}
+	st.coef = make([][3]float64, nc)
+	st.gvec = make([][2]float64, nc*nq)
+	st.hess = make([][3]float64, nc*nq)
+	st.held = make([][3]float64, nc*nq)
+	st.b, st.x = make([]float64, st.n), make([]float64, st.n)
+	st.warm = make([]float64, st.n)
 	return st, nil
 }
 
@@ -366,78 +507,77 @@ func (st *stream) gradBasis(k int, lam [3]float64, dst *[6][2]float64) int {
 	return 6
 }
 
+// modelGradient sets gvec to W(y* − σ) at the quadrature points, the
+// gradient of the quadratic model ½∫ (y* − σ)ᵀ W (y* − σ), W = hess.
+func (st *stream) modelGradient(e *Equilibrated, sigma [][2]float64) {
+	nq := len(st.lams)
+	for k := range sigma {
+		for q, lam := range st.lams {
+			y, _ := e.At(k, lam)
+			i := k*nq + q
+			w := st.hess[i]
+			d := [2]float64{y[0] - sigma[k][0], y[1] - sigma[k][1]}
+			st.gvec[i] = [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
+		}
+	}
+}
+
 // minimise runs the quadratic-model step and opt.Newton Newton steps on
 // Φ(y*) = ∫ D_G(∇v, y*) over y* = y0 + R∇ψ.
 func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potential, grad, sigma [][2]float64, reg float64, opt EquilibrateOptions) error {
-	m := st.s.Mesh
-	nc := m.NumCells()
-	r := st.rule
-	nq := r.Len()
-	lams := make([][3]float64, nq)
-	for q, p := range r.Points {
-		lams[q] = [3]float64{1 - p[0] - p[1], p[0], p[1]}
-	}
-	gvec := make([][2]float64, nc*nq)
-	hess := make([][3]float64, nc*nq)
-	b := make([]float64, st.n)
-	x := make([]float64, st.n)
+	nc := st.s.Mesh.NumCells()
+	nq := len(st.lams)
 	var phi float64
+	st.tol = opt.Tol
 	for step := 0; step <= opt.Newton; step++ {
 		if err := ctx.Err(); err != nil {
 			return fmt.Errorf("equilibrated flux: stopped: %w", err)
 		}
-		for k := range nc {
-			var w [3]float64
-			if step == 0 {
-				h := convex.Hessian(G, grad[k], reg)
-				w = inv2(h)
-			}
-			for q := range nq {
-				y, _ := e.At(k, lams[q])
-				i := k*nq + q
-				if step == 0 {
-					d := [2]float64{y[0] - sigma[k][0], y[1] - sigma[k][1]}
-					gvec[i] = [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
-					hess[i] = w
-					continue
+		if step == 0 {
+			for k := range nc {
+				w := inv2(convex.Hessian(G, grad[k], reg))
+				for q := range nq {
+					st.hess[k*nq+q] = w
 				}
-				xi := convex.DualFlux(G, y)
-				gvec[i] = [2]float64{xi[0] - grad[k][0], xi[1] - grad[k][1]}
-				hess[i] = inv2(convex.Hessian(G, xi, reg))
+			}
+			st.modelGradient(e, sigma)
+			if err := st.solve(ctx, e, st.tol, true); err != nil {
+				return err
+			}
+		} else {
+			for k := range nc {
+				for q, lam := range st.lams {
+					y, _ := e.At(k, lam)
+					i := k*nq + q
+					xi := convex.DualFlux(G, y)
+					st.gvec[i] = [2]float64{xi[0] - grad[k][0], xi[1] - grad[k][1]}
+					st.hess[i] = inv2(convex.Hessian(G, xi, reg))
+				}
 			}
 		}
-		if err := st.assemble(gvec, hess, b); err != nil {
-			return err
-		}
-		clear(x)
-		stats, err := fem.PCG(ctx, st.a, st.pre(), b, x, opt.Tol, 10000)
-		e.Iterations += stats.Iterations
-		if err != nil && ctx.Err() != nil {
-			return fmt.Errorf("equilibrated flux: %w", err)
-		}
-		// Any stream function keeps the balance; a failed CG only costs
-		// optimality, so its iterate is used as it is.
-		delta := make([][6][2]float64, nc)
-		for k := range nc {
-			st.curl(k, x, &delta[k])
+		if step > 0 {
+			if err := st.solve(ctx, e, st.tol, false); err != nil {
+				return err
+			}
 		}
 		if step == 0 {
-			e.addStep(delta, 1)
+			copy(st.warm, st.x)
+			st.addCurl(e, 1)
 			e.Steps++
 			if opt.Newton > 0 {
-				phi = e.gapIntegral(st.s, G, grad, r)
+				phi = e.gapIntegral(st.s, G, grad, st.rule)
 			}
 			continue
 		}
 		accepted := false
 		for t := 1.0; t > 1e-3; t /= 2 {
-			e.addStep(delta, t)
-			p := e.gapIntegral(st.s, G, grad, r)
+			st.addCurl(e, t)
+			p := e.gapIntegral(st.s, G, grad, st.rule)
 			if p < phi {
 				phi, accepted = p, true
 				break
 			}
-			e.addStep(delta, -t)
+			st.addCurl(e, -t)
 		}
 		if !accepted {
 			break
@@ -447,20 +587,107 @@ func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potent
 	return nil
 }
 
+// correct adds to e the minimiser of the quadratic model held by the
+// matrix (set by the latest minimise without Newton steps) over the
+// stream corrections: one solve, no assembly.
+func (st *stream) correct(ctx context.Context, e *Equilibrated, sigma [][2]float64, opt EquilibrateOptions) error {
+	st.tol = opt.Tol
+	copy(st.hess, st.held)
+	st.modelGradient(e, sigma)
+	// The correction is small: solve it to the accuracy asked of the whole
+	// model solve, not to a fraction of its own size.
+	st.rhs()
+	bn := math.Sqrt(floats.Dot(st.b, st.b))
+	if bn <= opt.Tol*st.bnorm {
+		return nil
+	}
+	if err := st.solve(ctx, e, math.Min(opt.Tol, opt.Tol*st.bnorm/bn), false); err != nil {
+		return err
+	}
+	st.addCurl(e, 1)
+	e.Steps++
+	return nil
+}
+
+// solve assembles the stream system for gvec and hess and solves it by
+// PCG into st.x. The matrix is rebuilt only when hess changed, and the
+// multigrid, whose set-up (Galerkin products, dense Cholesky of the coarsest
+// level) costs more than several CG iterations, only when the CG count has
+// more than doubled since its last update: an older multigrid built on the
+// same pattern stays symmetric positive definite (SPD coarse matrices and
+// symmetric Gauss–Seidel smoothing with the current matrix), so it remains
+// a valid preconditioner, only a less sharp one (lagged preconditioning,
+// common practice, no source).
+//
+// With warm set, the latest model solution starts the CG when its residual
+// is below ‖b‖, and bnorm records ‖b‖.
+func (st *stream) solve(ctx context.Context, e *Equilibrated, tol float64, warm bool) error {
+	if !st.assembled || !slices.Equal(st.hess, st.held) {
+		if err := st.assemble(); err != nil {
+			return err
+		}
+		copy(st.held, st.hess)
+		st.assembled = true
+		if !st.fresh || st.lastIters > 2*st.refIters+4 {
+			st.fresh = false
+		}
+	}
+	st.rhs()
+	if warm {
+		st.bnorm = math.Sqrt(floats.Dot(st.b, st.b))
+	}
+	for attempt := 0; ; attempt++ {
+		if !st.fresh {
+			if err := st.mg.Update(st.pa); err != nil {
+				st.assembled = false
+				return fmt.Errorf("equilibrated flux: %w", err)
+			}
+			st.fresh, st.refIters = true, -1
+		}
+		clear(st.x)
+		if warm && attempt == 0 {
+			st.a.MulVec(st.x, st.warm)
+			floats.Sub(st.x, st.b)
+			if floats.Dot(st.x, st.x) < st.bnorm*st.bnorm {
+				copy(st.x, st.warm)
+			} else {
+				clear(st.x)
+			}
+		}
+		stats, err := fem.PCG(ctx, st.a, st.pre(), st.b, st.x, tol, 10000)
+		e.Iterations += stats.Iterations
+		st.lastIters = stats.Iterations
+		if st.refIters < 0 {
+			st.refIters = stats.Iterations
+		}
+		if err != nil && ctx.Err() != nil {
+			return fmt.Errorf("equilibrated flux: %w", err)
+		}
+		if err == nil || st.refIters == stats.Iterations || attempt > 0 {
+			// Any stream function keeps the balance; a failed CG only costs
+			// optimality, so its iterate is used as it is.
+			return nil
+		}
+		st.fresh = false // a lagged multigrid failed: update and retry
+	}
+}
+
+// addCurl adds t·R∇ψ for the stream values st.x to the quadratic forms.
+func (st *stream) addCurl(e *Equilibrated, t float64) {
+	var d [6][2]float64
+	for k := range e.coef {
+		st.curl(k, st.x, &d)
+		for i := range 6 {
+			e.coef[k][i][0] += t * d[i][0]
+			e.coef[k][i][1] += t * d[i][1]
+		}
+	}
+}
+
 // inv2 returns the inverse of the symmetric 2×2 matrix (xx, xy, yy).
 func inv2(h [3]float64) [3]float64 {
 	det := h[0]*h[2] - h[1]*h[1]
 	return [3]float64{h[2] / det, -h[1] / det, h[0] / det}
-}
-
-// addStep adds t·delta to the quadratic forms.
-func (e *Equilibrated) addStep(delta [][6][2]float64, t float64) {
-	for k := range delta {
-		for i := range 6 {
-			e.coef[k][i][0] += t * delta[k][i][0]
-			e.coef[k][i][1] += t * delta[k][i][1]
-		}
-	}
 }
 
 // gapIntegral returns ∫ D_G(∇v, y*) by the rule r.
@@ -504,16 +731,14 @@ func (st *stream) curl(k int, x []float64, dst *[6][2]float64) {
 	addLinear(dst, Y, 3)
 }
 
-// assemble builds the stream systems of one step: the matrix
-// ∫ ∇φ_aᵀ RᵀHR ∇φ_b and the right side −∫ ∇φ_a · Rᵀg, and the cell-mean P1
-// block for the multigrid preconditioner. RᵀHR = (yy, −xy, xx).
-func (st *stream) assemble(gvec [][2]float64, hess [][3]float64, b []float64) error {
+// assemble builds the matrix ∫ ∇φ_aᵀ RᵀHR ∇φ_b of the weights hess and
+// its cell-mean P1 block for the multigrid preconditioner. RᵀHR =
+// (yy, −xy, xx).
+func (st *stream) assemble() error {
 	m := st.s.Mesh
 	nc := m.NumCells()
 	r := st.rule
 	nq := r.Len()
-	coef := make([][3]float64, nc)
-	clear(b)
 	if st.order == 1 {
 		clear(st.a.Val)
 	}
@@ -521,10 +746,10 @@ func (st *stream) assemble(gvec [][2]float64, hess [][3]float64, b []float64) er
 	for k := range nc {
 		area := st.s.Area[k]
 		var mean [3]float64
-		for q, p := range r.Points {
+		for q := range nq {
 			i := k*nq + q
 			w := 2 * area * r.Weights[q]
-			h := hess[i]
+			h := st.hess[i]
 			if !(h[0] > 0 && h[2] > 0 && h[0]*h[2] > h[1]*h[1]) || math.IsInf(h[0]+h[2], 0) {
 				return fmt.Errorf("equilibrated flux: the Hessian of G* is not positive definite in cell %d (%v); the potential may not be strictly convex there", k, h)
 			}
@@ -532,15 +757,12 @@ func (st *stream) assemble(gvec [][2]float64, hess [][3]float64, b []float64) er
 			for j := range 3 {
 				mean[j] += 2 * r.Weights[q] * kq[j]
 			}
-			rg := [2]float64{-gvec[i][1], gvec[i][0]}
-			nb := st.gradBasis(k, [3]float64{1 - p[0] - p[1], p[0], p[1]}, &gb)
+			if st.order == 0 {
+				continue
+			}
+			nb := st.gradBasis(k, st.lams[q], &gb)
 			for a := range nb {
-				da := st.dof[k][a]
-				if da < 0 {
-					continue
-				}
-				b[da] -= w * (gb[a][0]*rg[0] + gb[a][1]*rg[1])
-				if st.order == 0 {
+				if st.dof[k][a] < 0 {
 					continue
 				}
 				cx := w * (kq[0]*gb[a][0] + kq[1]*gb[a][1])
@@ -552,13 +774,34 @@ func (st *stream) assemble(gvec [][2]float64, hess [][3]float64, b []float64) er
 				}
 			}
 		}
-		coef[k] = mean
+		st.coef[k] = mean
 	}
-	if err := st.ps.Stiffness(coef, st.pa); err != nil {
-		return fmt.Errorf("equilibrated flux: %w", err)
-	}
-	if err := st.mg.Update(st.pa); err != nil {
+	if err := st.ps.Stiffness(st.coef, st.pa); err != nil {
 		return fmt.Errorf("equilibrated flux: %w", err)
 	}
 	return nil
+}
+
+// rhs sets b to the right side −∫ ∇φ_a · Rᵀg of the stream system.
+func (st *stream) rhs() {
+	nc := st.s.Mesh.NumCells()
+	r := st.rule
+	nq := r.Len()
+	b := st.b
+	clear(b)
+	var gb [6][2]float64
+	for k := range nc {
+		area := st.s.Area[k]
+		for q := range nq {
+			i := k*nq + q
+			w := 2 * area * r.Weights[q]
+			rg := [2]float64{-st.gvec[i][1], st.gvec[i][0]}
+			nb := st.gradBasis(k, st.lams[q], &gb)
+			for a := range nb {
+				if da := st.dof[k][a]; da >= 0 {
+					b[da] -= w * (gb[a][0]*rg[0] + gb[a][1]*rg[1])
+				}
+			}
+		}
+	}
 }

@@ -6,17 +6,16 @@ import (
 	"gapbook/fem"
 )
 
-// addBubbles adds to cell k the RT1 fields with zero normal trace
-// b_i = λ_i(λ_j R∇λ_l − λ_l R∇λ_j), (i, j, l) cyclic, whose divergence is
-// c(3λ_i − 1) with c = ∇λ_j·R∇λ_l (the same for every cyclic pair since
-// Σ∇λ = 0), weighted so that the divergence gains the mean-free part of
-// −Π1 f: β_i = t_i/(3c) for the target Σ t_i λ_i, Σ t_i = 0.
-func (e *Equilibrated) addBubbles(k int, g *[3][2]float64) {
-	p := &e.proj[k]
+// addBubbles adds to the quadratic form co of a cell the RT1 fields with
+// zero normal trace b_i = λ_i(λ_j R∇λ_l − λ_l R∇λ_j), (i, j, l) cyclic,
+// whose divergence is c(3λ_i − 1) with c = ∇λ_j·R∇λ_l (the same for every
+// cyclic pair since Σ∇λ = 0), weighted so that the divergence gains the
+// mean-free part of −Σ p_i λ_i (p: Π1 f in barycentric coefficients):
+// β_i = t_i/(3c) for the target Σ t_i λ_i, Σ t_i = 0.
+func addBubbles(co *[6][2]float64, p *[3]float64, g *[3][2]float64) {
 	mean := (p[0] + p[1] + p[2]) / 3
 	rp := [3][2]float64{perp(g[0]), perp(g[1]), perp(g[2])}
 	c := g[1][0]*rp[2][0] + g[1][1]*rp[2][1]
-	co := &e.coef[k]
 	for i := range 3 {
 		j, l := (i+1)%3, (i+2)%3
 		beta := -(p[i] - mean) / (3 * c)

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 
 	"gapbook/convex"
@@ -147,6 +148,10 @@ type Parabolic struct {
 	exact              ExactTerms
 	primal, dual, gapE float64
 	flux               Flux
+	// reuse across steps of the equilibrated flux (2-D)
+	eq           *equilibrator
+	last         *Equilibrated // end flux of the latest step
+	dPrev, vPrev []float64
 }
 
 // NewParabolic prepares the accumulator for the P1 space s.
@@ -307,15 +312,22 @@ func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) 
 	}
 	s.Gradient(v0, b.g0)
 	s.Gradient(v1, b.g1)
-	yb, err := b.reconstruct(ctx, v1, t1)
-	if err != nil {
-		return err
-	}
-	ya := yb
+	var ya, yb Flux
+	var err error
 	if b.o.InTime == LinearInTime {
-		if ya, err = b.reconstruct(ctx, v0, t0); err != nil {
+		if ya, err = b.reconstructStart(ctx, v0, t0); err != nil {
 			return err
 		}
+	}
+	if yb, err = b.reconstruct(ctx, v1, t1); err != nil {
+		return err
+	}
+	if ya == nil {
+		ya = yb
+	}
+	if b.o.InTime == LinearInTime {
+		b.dPrev = append(b.dPrev[:0], b.d...)
+		b.vPrev = append(b.vPrev[:0], v1...)
 	}
 	part := b.slab(t0, tau, ya, yb)
 	if b.o.Exact != nil {
@@ -328,15 +340,12 @@ func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) 
 	return nil
 }
 
-// reconstruct builds y* from v against the load f(t) − ∂_t v.
-func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Flux, error) {
-	if b.o.Kind == AveragedFlux {
-		return NewAveraged(b.s, b.p.G, v)
-	}
+// source is the load f(t) − ∂_t v of the current step.
+func (b *Parabolic) source(t float64) Source {
 	m := b.s.Mesh
 	nv := m.Dim + 1
 	f := b.p.F
-	src := func(k int, lam [3]float64) float64 {
+	return func(k int, lam [3]float64) float64 {
 		c := m.Cells[k]
 		var dt float64
 		for a := range nv {
@@ -348,10 +357,58 @@ func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Fl
 		x, y := eqPoint(m, k, lam)
 		return f(x, y, t) - dt
 	}
-	e, err := Equilibrate(ctx, b.s, b.p.G, v, src, b.o.Equilibrate)
+}
+
+// reconstruct builds y* from v against the load f(t) − ∂_t v.
+func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Flux, error) {
+	if b.o.Kind == AveragedFlux {
+		return NewAveraged(b.s, b.p.G, v)
+	}
+	var e *Equilibrated
+	var err error
+	if b.s.Mesh.Dim == 1 {
+		e, err = Equilibrate(ctx, b.s, b.p.G, v, b.source(t), b.o.Equilibrate)
+	} else {
+		if b.eq == nil {
+			if err := b.o.Equilibrate.defaults(); err != nil {
+				return nil, fmt.Errorf("parabolic bounds: %w", err)
+			}
+			if b.eq, err = newEquilibrator(b.s, b.o.Equilibrate.Order); err != nil {
+				return nil, fmt.Errorf("parabolic bounds: %w", err)
+			}
+		}
+		e, err = b.eq.flux(ctx, b.p.G, v, b.source(t), b.o.Equilibrate)
+	}
 	if err != nil {
 		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t, err)
 	}
+	b.last = e
+	return e, nil
+}
+
+// reconstructStart builds the flux at the start t0 of the step, from v0
+// against f(t0) − ∂_t v. The end flux of the previous step was built from
+// the same v0 against f(t0) minus the previous ∂_t v, so on a 2-D mesh it
+// is shifted by the balanced correction for the difference of the two
+// P1 time derivatives (equilibrator.shift) instead of being rebuilt.
+func (b *Parabolic) reconstructStart(ctx context.Context, v0 []float64, t0 float64) (Flux, error) {
+	if b.o.Kind != EquilibratedFlux || b.eq == nil || b.last == nil || !slices.Equal(v0, b.vPrev) {
+		return b.reconstruct(ctx, v0, t0)
+	}
+	m := b.s.Mesh
+	df := func(k int, lam [3]float64) float64 {
+		c := m.Cells[k]
+		var s float64
+		for a := range 3 {
+			s += lam[a] * (b.dPrev[c[a]] - b.d[c[a]])
+		}
+		return s
+	}
+	e, err := b.eq.shift(ctx, b.p.G, b.last, v0, df, b.source(t0), b.o.Equilibrate)
+	if err != nil {
+		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t0, err)
+	}
+	b.last = nil
 	return e, nil
 }
 
