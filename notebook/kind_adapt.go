@@ -52,7 +52,6 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 	if err != nil {
 		return nil, FieldErr("cells", "%v", err)
 	}
-	trimHierarchy(m0)
 	cf, err := friedrichs(c, m0, p.Alpha, constBest)
 	if err != nil {
 		return nil, err

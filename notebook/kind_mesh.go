@@ -59,30 +59,7 @@ func (meshKind) Evaluate(c *Context, in Values) (*Results, error) {
 			return nil, FieldErr("refinements", "refinement %d: %v", i+1, err)
 		}
 	}
-	trimHierarchy(m)
 	return meshResults(p, m), nil
-}
-
-// trimHierarchy cuts the chain of coarser meshes above the first one
-// without interior nodes: nested iteration cannot start from a level with
-// no unknowns (its gradient is zero everywhere), and such a level adds
-// nothing to multigrid. The meshes are our own, freshly built.
-func trimHierarchy(m *mesh.Mesh) {
-	for f := m; f.Coarse != nil; f = f.Coarse {
-		if !hasInterior(f.Coarse) {
-			f.Coarse, f.Parents, f.CellParent = nil, nil, nil
-			return
-		}
-	}
-}
-
-func hasInterior(m *mesh.Mesh) bool {
-	for _, b := range m.Boundary {
-		if !b {
-			return true
-		}
-	}
-	return false
 }
 
 // meshResults describes a mesh: sizes as exact numbers and, when small,
