@@ -392,6 +392,9 @@ function applyViews(views, fromRun) {
     // faded, until the cell is computed again.
     if (v.status === 'stale' && !v.scalars.length && !v.html && old && (old.scalars.length || old.html)) {
       v = { ...old, status: 'stale', error: null, reproduced: '', differences: null, fields: v.fields, earlier: true };
+    } else if (old && old.reproduced && !v.reproduced && v.status === 'ok' && v.digest === old.digest) {
+      // Whether the saved results were reproduced is known from the last run.
+      v = { ...v, reproduced: old.reproduced, differences: old.differences };
     }
     state.views.set(v.id, v);
     const sec = document.getElementById(domID(v.id));
