@@ -163,37 +163,69 @@ type truth struct {
 }
 
 func exactTerms(s *fem.P1, G convex.Potential, m *manufactured, f func(x, y float64) float64, v []float64, y Flux) truth {
+	return exactTermsOn(s, G, m, f, v, y, 0)
+}
+
+// subCells returns the sub-cells of the reference cell after the given
+// number of uniform subdivisions.
+func subCells(dim, levels int) []simplex {
+	cells := []simplex{unitSimplex}
+	for range levels {
+		var next []simplex
+		for _, c := range cells {
+			ch, n := children(dim, c)
+			next = append(next, ch[:n]...)
+		}
+		cells = next
+	}
+	return cells
+}
+
+// exactTermsOn is exactTerms with a composite rule: the high-order rule on
+// every sub-cell of the given subdivision level of each cell (for
+// integrands that are not smooth where y* or p* vanish).
+func exactTermsOn(s *fem.P1, G convex.Potential, m *manufactured, f func(x, y float64) float64, v []float64, y Flux, levels int) truth {
 	var rule fem.Rule
 	if s.Mesh.Dim == 1 {
 		rule = fem.Line(30)
 	} else {
 		rule = fem.Collapsed(14)
 	}
+	subs := subCells(s.Mesh.Dim, levels)
+	frac := 1 / float64(len(subs))
 	alpha := G.Growth()
 	grad := make([][2]float64, s.Mesh.NumCells())
 	s.Gradient(v, grad)
 	var t truth
 	for k, c := range s.Mesh.Cells {
 		g := grad[k]
-		for q, pt := range rule.Points {
-			lam, scale := cellPoint(s.Mesh.Dim, pt)
-			w := rule.Weights[q] * scale * s.Area[k]
-			x, yy := physical(s, k, lam)
-			gu := m.grad(x, yy)
-			ys, div := y.At(k, lam)
-			vx := 0.0
-			for a := range s.Mesh.Dim + 1 {
-				vx += lam[a] * v[c[a]]
+		for _, sc := range subs {
+			for q, pt := range rule.Points {
+				ref, scale := cellPoint(s.Mesh.Dim, pt)
+				var lam [3]float64
+				for a := range s.Mesh.Dim + 1 {
+					for b := range s.Mesh.Dim + 1 {
+						lam[b] += ref[a] * sc[a][b]
+					}
+				}
+				w := rule.Weights[q] * scale * s.Area[k] * frac
+				x, yy := physical(s, k, lam)
+				gu := m.grad(x, yy)
+				ys, div := y.At(k, lam)
+				vx := 0.0
+				for a := range s.Mesh.Dim + 1 {
+					vx += lam[a] * v[c[a]]
+				}
+				t.mu += w * convex.Gap(G, g, convex.Flux(G, gu))
+				t.dual += w * convex.Gap(G, gu, ys)
+				t.d += w * convex.Gap(G, g, ys)
+				t.ru += w * (f(x, yy) + div) * (m.u(x, yy) - vx)
+				e := math.Hypot(gu[0]-g[0], gu[1]-g[1])
+				t.norm += w * math.Pow(e, alpha)
+				t.ps[0] += w * e * e
+				t.ps[1] += w * ((gu[0]-ys[0])*(gu[0]-ys[0]) + (gu[1]-ys[1])*(gu[1]-ys[1]))
+				t.ps[2] += w * ((g[0]-ys[0])*(g[0]-ys[0]) + (g[1]-ys[1])*(g[1]-ys[1]))
 			}
-			t.mu += w * convex.Gap(G, g, convex.Flux(G, gu))
-			t.dual += w * convex.Gap(G, gu, ys)
-			t.d += w * convex.Gap(G, g, ys)
-			t.ru += w * (f(x, yy) + div) * (m.u(x, yy) - vx)
-			e := math.Hypot(gu[0]-g[0], gu[1]-g[1])
-			t.norm += w * math.Pow(e, alpha)
-			t.ps[0] += w * e * e
-			t.ps[1] += w * ((gu[0]-ys[0])*(gu[0]-ys[0]) + (gu[1]-ys[1])*(gu[1]-ys[1]))
-			t.ps[2] += w * ((g[0]-ys[0])*(g[0]-ys[0]) + (g[1]-ys[1])*(g[1]-ys[1]))
 		}
 	}
 	t.norm = math.Pow(t.norm, 1/alpha)

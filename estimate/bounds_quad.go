@@ -139,7 +139,7 @@ func children(dim int, s simplex) (c [4]simplex, n int) {
 // where |y*|, |y*|^{α'} and |r|^{α'} are not smooth and a fixed rule
 // under-integrates them.
 const (
-	nearZero = 1.0
+	nearZero = 3.0
 	// gapTol is the relative tolerance of adaptive subdivision for ∫D_G
 	// (relative to the cell value, or to the cell's area share of the
 	// total, whichever is larger).
