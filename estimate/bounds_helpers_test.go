@@ -20,35 +20,16 @@ type manufactured struct {
 	dim   int
 }
 
+// bubble returns Π ℓ_i with its gradient and Hessian (xx, xy, yy), built
+// one factor at a time by the product rule (linear cost in the number of
+// lines).
 func (m *manufactured) bubble(x, y float64) (b float64, g [2]float64, h [3]float64) {
-	n := len(m.lines)
-	var l [16]float64
-	for i, ln := range m.lines {
-		l[i] = ln[0] + ln[1]*x + ln[2]*y
-	}
-	prodExcept := func(i, j int) float64 {
-		p := 1.0
-		for k := range n {
-			if k != i && k != j {
-				p *= l[k]
-			}
-		}
-		return p
-	}
-	b = prodExcept(-1, -1)
-	for i, li := range m.lines {
-		p := prodExcept(i, -1)
-		g[0] += li[1] * p
-		g[1] += li[2] * p
-		for j, lj := range m.lines {
-			if j == i {
-				continue
-			}
-			q := prodExcept(i, j)
-			h[0] += li[1] * lj[1] * q
-			h[1] += li[1] * lj[2] * q
-			h[2] += li[2] * lj[2] * q
-		}
+	b = 1
+	for _, ln := range m.lines {
+		l, nx, ny := ln[0]+ln[1]*x+ln[2]*y, ln[1], ln[2]
+		h = [3]float64{h[0]*l + 2*g[0]*nx, h[1]*l + g[0]*ny + g[1]*nx, h[2]*l + 2*g[1]*ny}
+		g = [2]float64{g[0]*l + b*nx, g[1]*l + b*ny}
+		b *= l
 	}
 	return b, g, h
 }

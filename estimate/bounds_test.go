@@ -113,9 +113,9 @@ func TestPragerSynge(t *testing.T) {
 
 // TestMajorantInvariant is the invariant of MATH.md §5: μ̄ ≥ μ(v) on every
 // case of the suite (α × domain × v × flux × mesh size), together with the
-// norm and dual bounds; no tolerance. v is the perturbed interpolant on two
-// meshes and nonlinear.Solve's discrete solution on the finer one (any v
-// must work; the discrete one is what users bound).
+// norm and dual bounds; no tolerance. v is the perturbed interpolant on the
+// coarse mesh and nonlinear.Solve's discrete solution on the finer one (any
+// v must work; the discrete one is what users bound).
 func TestMajorantInvariant(t *testing.T) {
 	cases := 0
 	for _, d := range domains() {
@@ -123,12 +123,12 @@ func TestMajorantInvariant(t *testing.T) {
 		for _, alpha := range []float64{1.3, 1.5, 2, 3, 4, 6} {
 			G := must(convex.Power(alpha))
 			f := m.source(G)
-			for level := range 3 {
-				msh := d.mesh(min(level, 1))
+			for level := range 2 {
+				msh := d.mesh(level)
 				s := must(fem.NewP1(msh))
 				c := must(WidthConstant(msh, alpha))
 				v, kind := perturbed(s, m.u, 0.05, uint64(level+3)), "perturbed"
-				if level == 2 {
+				if level == 1 {
 					sol, err := nonlinear.Solve(context.Background(), msh, nonlinear.Problem{G: G, F: f, Dirichlet: m.u}, nonlinear.Options{})
 					if err != nil {
 						t.Fatalf("%s/p=%g: %v", d.name, alpha, err)
@@ -173,7 +173,7 @@ func TestMajorantInvariant(t *testing.T) {
 			}
 		}
 	}
-	if cases < 280 {
+	if cases < 190 {
 		t.Errorf("only %d cases", cases)
 	}
 }
