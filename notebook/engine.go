@@ -57,7 +57,9 @@ type Outcome struct {
 	// Cached is true when the results came from the engine's cache.
 	Cached bool
 	// Reproduced is set when the file had results for the same Hash:
-	// "yes" when the digests agree, "no" when not (see Differences).
+	// "yes" when the digests agree or every number agrees to
+	// ReproduceTolerance (Differences then says how closely), "no" when not
+	// (Differences lists what differs).
 	Reproduced  string
 	Differences []string
 }
@@ -303,6 +305,11 @@ func (o *Outcome) compareSaved(s *Saved) {
 	}
 	if s.Digest == o.Digest || s.Results.Digest() == o.Digest {
 		o.Reproduced = "yes"
+		return
+	}
+	if ok, worst := RoundOff(s.Results, o.Results); ok {
+		o.Reproduced = "yes"
+		o.Differences = []string{roundOffNote(worst)}
 		return
 	}
 	o.Reproduced = "no"

@@ -146,7 +146,11 @@ func RenderCell(c *Cell, o *Outcome) string {
 	}
 	if o != nil && o.Reproduced != "" && len(o.Results.Scalars)+len(o.Results.Tables)+len(o.Results.Plots)+len(o.Results.Fields) > 0 {
 		if o.Reproduced == "yes" {
-			b.WriteString(`<p class="reproduced">reproduced the saved results (digest ` + esc(o.Digest[:12]) + `…)</p>`)
+			how := " (digest " + o.Digest[:12] + "…)"
+			if len(o.Differences) > 0 {
+				how = "; " + o.Differences[0]
+			}
+			b.WriteString(`<p class="reproduced">reproduced the saved results` + esc(how) + `</p>`)
 		} else {
 			b.WriteString(`<div class="not-reproduced"><p>differs from the saved results:</p><ul>`)
 			for _, d := range o.Differences {

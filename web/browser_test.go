@@ -570,14 +570,6 @@ func TestStandaloneFromDisk(t *testing.T) {
 			total := eval[string](tb, `document.getElementById('repro-summary').dataset.total`)
 			compareWithNative(t, tb, c.path)
 			tb.screenshot("standalone-" + strings.TrimSuffix(filepath.Base(c.path), ".gapbook"))
-			if yes != total && c.cells < 0 && !t.Failed() {
-				// KNOWN ISSUE, reported to the owners of the numerical kinds: values
-				// at round-off level (a residual of 1e-15, indicators near zero)
-				// differ between native code and WebAssembly beyond the 12 digits
-				// of the digest, although every scalar agrees to 1e-9 above.
-				t.Skipf("KNOWN ISSUE: the default study's digests do not all reproduce in WebAssembly: %s",
-					eval[string](tb, `JSON.stringify([...state.views.values()].filter(v => v.reproduced !== 'yes').map(v => [v.id, v.differences]))`))
-			}
 			if yes != total || total != strconv.Itoa(want) {
 				t.Errorf("reproduced %s of %s saved results, want %d of %d; differences: %s", yes, total, want, want,
 					eval[string](tb, `JSON.stringify([...state.views.values()].filter(v => v.reproduced !== 'yes').map(v => [v.id, v.reproduced, v.differences]))`))

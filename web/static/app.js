@@ -444,7 +444,8 @@ function applyView(sec, v) {
     foot.append(el('p', { class: 'earlier', text: 'Faded: results of earlier inputs. Recompute to bring them up to date.' }));
   }
   if (v.reproduced === 'yes' && v.digest) {
-    foot.append(el('p', { class: 'repro yes', text: `✓ reproduced the saved results (digest ${v.digest.slice(0, 12)}…)` }));
+    const how = (v.differences && v.differences.length) ? `; ${v.differences[0]}` : ` (digest ${v.digest.slice(0, 12)}…)`;
+    foot.append(el('p', { class: 'repro yes', text: `✓ reproduced the saved results${how}` }));
   } else if (v.reproduced === 'no') {
     foot.append(el('div', { class: 'repro no' }, el('p', { text: '✗ differs from the saved results:' }),
       el('ul', {}, ...(v.differences || []).map((d) => el('li', { text: d })))));
