@@ -340,3 +340,10 @@ func conjugateFrom(prof func(t float64) (g, g1, g2 float64), s, tau float64) (gs
 	g, _, _ := prof(tau)
 	return s*tau - g, tau
 }
+
+// IsPower reports whether G is the power potential |ξ|^α/α of Power, and
+// its α, so that callers may use the closed forms of that family.
+func IsPower(G Potential) (alpha float64, ok bool) {
+	p, ok := G.(powerPot)
+	return p.alpha, ok
+}

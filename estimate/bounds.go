@@ -128,9 +128,7 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	if len(v) != s.NumNodes() {
 		return nil, fmt.Errorf("estimate: v has %d values for %d nodes", len(v), s.NumNodes())
 	}
-	if degree <= 0 {
-		degree = DefaultDegree
-	}
+	degree = positiveDegree(degree)
 	alpha := p.G.Growth()
 	conj := alpha / (alpha - 1)
 	nc := s.Mesh.NumCells()
@@ -497,9 +495,7 @@ func YoungForm(D, R, c, alpha, theta float64) float64 {
 // Energy returns J(v) = ∫ G(∇v) − f v for the P1 function v, with the load
 // term integrated by the rule of the given degree (0: DefaultDegree).
 func Energy(s *fem.P1, G convex.Potential, f func(x, y float64) float64, v []float64, degree int) float64 {
-	if degree <= 0 {
-		degree = DefaultDegree
-	}
+	degree = positiveDegree(degree)
 	rule := s.Rule(degree)
 	dim := s.Mesh.Dim
 	var e float64
@@ -555,4 +551,19 @@ func FlowRate(e Interval, alpha, f float64) (Interval, error) {
 	}
 	return Interval{Lo: lo, Hi: hi, Label: e.Label,
 		Assumptions: append(append([]string(nil), e.Assumptions...), "power potential, u_D = 0, constant f")}, nil
+}
+
+// positiveDegree maps a requested quadrature degree to one whose triangle
+// rule has positive weights: 0 means DefaultDegree, and the Dunavant rules
+// of degrees 3 and 7 (a negative weight each) are replaced by those of
+// degrees 4 and 8, since the bounds of ∫|r|^{α'} through even powers and the
+// subdivision margins need a positive rule.
+func positiveDegree(d int) int {
+	switch {
+	case d <= 0:
+		return DefaultDegree
+	case d == 3 || d == 7:
+		return d + 1
+	}
+	return d
 }

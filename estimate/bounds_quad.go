@@ -1,7 +1,6 @@
 package estimate
 
 import (
-	"fmt"
 	"math"
 
 	"gapbook/convex"
@@ -27,8 +26,8 @@ const seriesRadius = 0.25
 
 func newGapper(G convex.Potential) gapper {
 	gp := gapper{G: G}
-	alpha := G.Growth()
-	if fmt.Sprintf("%T", G) != "convex.powerPot" || !isPower(G, alpha) {
+	alpha, ok := convex.IsPower(G)
+	if !ok || !isPower(G, alpha) {
 		return gp
 	}
 	gp.power, gp.alpha, gp.conj, gp.inv = true, alpha, alpha/(alpha-1), 1/(alpha-1)
