@@ -2,7 +2,6 @@ package notebook
 
 import (
 	"context"
-	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
@@ -246,7 +245,7 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 		pos[cc.ID] = j
 	}
 	deps := map[string]*Outcome{}
-	h := sha256.New()
+	h := newSHA256()
 	fmt.Fprintf(h, "gapbook-cell-1\n%q\n", c.Kind)
 	writeValues(h, k, vals)
 	for _, r := range refs(k, vals) {
@@ -462,7 +461,7 @@ func (nb *Notebook) States() []*Outcome {
 			out.Status, out.Err = StatusError, &CellError{Cell: c.ID, Field: errs[0].Field, Msg: errs[0].Msg}
 			continue
 		}
-		h := sha256.New()
+		h := newSHA256()
 		fmt.Fprintf(h, "gapbook-cell-1\n%q\n", c.Kind)
 		writeValues(h, k, vals)
 		bad := false

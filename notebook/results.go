@@ -1,7 +1,6 @@
 package notebook
 
 import (
-	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
@@ -306,7 +305,7 @@ func (r *Results) Digest() string {
 	if r == nil {
 		r = &Results{}
 	}
-	s := sha256.Sum256(r.canonical())
+	s := sha256Sum(r.canonical())
 	return hex.EncodeToString(s[:])
 }
 
