@@ -18,7 +18,9 @@ import "fmt"
 // refinements) the cells keep the similarity classes of the coarse mesh.
 //
 // The result has Coarse = m, Parents (each new node is the midpoint of an
-// edge of m) and CellParent. In 1-D the marked intervals are halved.
+// edge of m) and CellParent. Large 2-D results are renumbered for locality
+// as in Refine (node 0 of m stays node 0). In 1-D the marked intervals are
+// halved.
 func (m *Mesh) Bisect(marked []bool) (*Mesh, error) {
 	if len(marked) != len(m.Cells) {
 		return nil, fmt.Errorf("bisect: %d marks for %d cells; give one mark per cell", len(marked), len(m.Cells))
@@ -133,6 +135,7 @@ func (m *Mesh) Bisect(marked []bool) (*Mesh, error) {
 			f.BoundaryEdges = append(f.BoundaryEdges, be)
 		}
 	}
+	f.renumber()
 	f.markBoundary()
 	return f, nil
 }

@@ -79,6 +79,22 @@ func checkMesh(t *testing.T, name string, m *Mesh, area float64) {
 			t.Fatalf("%s: node %d is not the midpoint of its parents %v", name, i, p)
 		}
 	}
+	// Renumbering must keep each coarse node exactly once, and node 0 in
+	// place (a space pinned at node 0 relies on it).
+	seen := make([]int, len(c.Nodes))
+	for _, p := range m.Parents {
+		if p[0] == p[1] {
+			seen[p[0]]++
+		}
+	}
+	for j, n := range seen {
+		if n != 1 {
+			t.Fatalf("%s: coarse node %d is %d fine nodes, want 1", name, j, n)
+		}
+	}
+	if m.Parents[0] != [2]int32{0, 0} {
+		t.Fatalf("%s: fine node 0 has parents %v, want coarse node 0", name, m.Parents[0])
+	}
 	childArea := make([]float64, len(c.Cells))
 	for k, p := range m.CellParent {
 		childArea[p] += m.Area(k)

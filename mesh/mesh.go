@@ -230,7 +230,11 @@ func checkBudget(nodes, cells int) error {
 // The result keeps m as its Coarse mesh, with Parents for the prolongation;
 // cell k of m becomes cells 4k…4k+3 (2k, 2k+1 in 1-D). The children are
 // labelled so that later newest-vertex bisection (Bisect) sees the same
-// similarity classes as on m.
+// similarity classes as on m. The nodes of m come first, then the edge
+// midpoints; but a 2-D result of 16384 nodes or more is numbered in the order
+// the cells first reach its nodes (node 0 of m stays node 0), so that
+// neighbouring nodes lie close together in memory. Either way Parents names
+// the node (or edge) of m that each fine node comes from.
 func (m *Mesh) Refine() (*Mesh, error) {
 	if m.Dim == 1 {
 		return m.refine1()
@@ -288,6 +292,7 @@ func (m *Mesh) Refine() (*Mesh, error) {
 		mid := int32(nv) + e
 		f.BoundaryEdges = append(f.BoundaryEdges, [2]int32{a, mid}, [2]int32{mid, b})
 	}
+	f.renumber()
 	f.markBoundary()
 	return f, nil
 }
