@@ -2,13 +2,11 @@ package nonlinear
 
 import (
 	"context"
-	"encoding/json"
 	"flag"
 	"fmt"
-	"math"
-	"os"
 	"testing"
 
+	"gapbook/internal/golden"
 	"gapbook/mesh"
 )
 
@@ -33,37 +31,5 @@ func TestGolden(t *testing.T) {
 		}
 		got[fmt.Sprint("lshape/p=", a)] = append(r.U, r.Energy)
 	}
-	const file = "testdata/golden.json"
-	if *update {
-		b, _ := json.MarshalIndent(got, "", " ")
-		if err := os.WriteFile(file, b, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
-	b, err := os.ReadFile(file)
-	if err != nil {
-		t.Fatal(err)
-	}
-	var want map[string][]float64
-	if err := json.Unmarshal(b, &want); err != nil {
-		t.Fatal(err)
-	}
-	for k, w := range want {
-		g := got[k]
-		if len(g) != len(w) {
-			t.Fatalf("%s: %d values, golden has %d", k, len(g), len(w))
-		}
-		scale := 0.0
-		for _, v := range w {
-			scale = math.Max(scale, math.Abs(v))
-		}
-		for i := range w {
-			if math.Abs(g[i]-w[i]) > 1e-12*scale {
-				t.Errorf("%s[%d] = %.17g, golden %.17g", k, i, g[i], w[i])
-			}
-		}
-	}
-	if len(want) != len(got) {
-		t.Errorf("golden file has %d cases, test %d", len(want), len(got))
-	}
+	golden.Check(t, "testdata/golden.json", got, *update, 1e-12)
 }
