@@ -424,6 +424,68 @@ func TestEditInputDependentsStaleThenUpdate(t *testing.T) {
 	tb.screenshot("edit-invalid")
 }
 
+// The exponent of the default study's problem cell is edited as a person
+// would: every dependent cell goes stale, and after recomputing the bound
+// cell shows the new exponent's bounds, which still enclose the error
+// (minorant ≤ majorant) and match gapbook run --json on the edited file.
+func TestEditExponentInProblemCell(t *testing.T) {
+	tb := openTab(t, readFile(t, "../examples/default.gapbook"))
+	tb.load(tb.url)
+	major := func() float64 {
+		for _, s := range tb.values() {
+			if s.Cell == "bound" && s.Name == "majorant" {
+				v, _ := strconv.ParseFloat(s.Value, 64)
+				return v
+			}
+		}
+		t.Fatal("no majorant shown in the bound cell")
+		return 0
+	}
+	before := major()
+	eval[bool](tb, `(() => { const f = document.querySelector('#cell-problem [data-input="alpha"]');
+		f.value = '2.5'; f.dispatchEvent(new Event('change')); return true })()`)
+	tb.wait(`['mesh', 'solve', 'bound', 'newton'].every(id => document.getElementById('cell-' + id).dataset.status === 'stale')`)
+	if st := tb.statuses(); st["about"] != "ok" {
+		t.Errorf("the note went %q; only the problem and its dependents should change", st["about"])
+	}
+	tb.do(chromedp.Click(chromedp.ID("run-all")))
+	tb.wait(`[...document.querySelectorAll('.cell')].every(e => e.dataset.status === 'ok') && !document.body.classList.contains('busy')`)
+	after := major()
+	if after == before {
+		t.Errorf("majorant unchanged (%g) after changing the exponent", after)
+	}
+	var minor float64
+	for _, s := range tb.values() {
+		if s.Cell == "bound" && s.Name == "minorant" {
+			minor, _ = strconv.ParseFloat(s.Value, 64)
+		}
+	}
+	if !(minor > 0 && minor <= after) {
+		t.Errorf("minorant %g, majorant %g: not an interval", minor, after)
+	}
+	// The same edit natively: the page's values must be those of gapbook run.
+	nb, err := notebook.Load(readFile(t, "../examples/default.gapbook"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, _ := nb.Cell("problem")
+	if err := c.SetInput("alpha", 2.5); err != nil {
+		t.Fatal(err)
+	}
+	doc, err := notebook.Save(nb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(t.TempDir(), "edited.gapbook")
+	if err := os.WriteFile(path, doc, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if n := compareWithNative(t, tb, path); n < 10 {
+		t.Errorf("compared only %d values with the native run", n)
+	}
+	tb.screenshot("edit-exponent")
+}
+
 func TestEditingCells(t *testing.T) {
 	tb := openTab(t, readFile(t, "testdata/study.gapbook"))
 	tb.load(tb.url)
