@@ -10,8 +10,8 @@ import "fmt"
 // halves.
 //
 // Method: newest-vertex bisection (Sewell 1972; Mitchell 1991) in the edge
-// marking form of Funken, Praetorius & Wissgott, "Efficient implementation
-// of adaptive P1-FEM in Matlab", Comput. Methods Appl. Math. 11 (2011): the
+// marking form of Funken, Praetorius & Wissgott, Comput. Methods Appl.
+// Math. 11 (2011): the
 // closure marks the refinement edge of every cell with a marked edge, then
 // each cell is cut into 2, 3 or 4 children. It stays conforming from any
 // labelling; from a compatible one (Rectangle, LShape and their uniform
