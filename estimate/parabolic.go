@@ -124,6 +124,9 @@ type Parabolic struct {
 	conj  float64
 	nb    normBound
 	mod   convex.Modulus
+	// gp is D_G by closed form for the power family (convex.Gap otherwise);
+	// the true error terms keep convex.Gap so that they stay independent.
+	gp gapper
 	// scratch
 	g0, g1, gq [][2]float64
 	d          []float64
@@ -199,6 +202,7 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 	}
 	b := &Parabolic{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1)}
 	b.mod = p.G.Modulus()
+	b.gp = newGapper(p.G)
 	if o.Modulus != nil {
 		b.mod = *o.Modulus
 	}
@@ -289,10 +293,17 @@ func CompositeRule(dim, degree, split int) fem.Rule {
 	return r
 }
 
-// powAbs returns |x|^q with the common q = 2 without a call to Pow.
+// powAbs returns |x|^q with the common q = 2, 3/2 (α = 3) and 3 (α = 3/2)
+// without a call to Pow.
 func powAbs(x, q float64) float64 {
-	if q == 2 {
+	switch q {
+	case 2:
 		return x * x
+	case 1.5:
+		a := math.Abs(x)
+		return a * math.Sqrt(a)
+	case 3:
+		return x * x * math.Abs(x)
 	}
 	return math.Pow(math.Abs(x), q)
 }
@@ -462,7 +473,7 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 					x, yy := physical(s, k, lam)
 					r += b.p.F(x, yy, t)
 				}
-				dk += w * convex.Gap(G, g, y)
+				dk += w * b.gp.gap(g, y)
 				if b.watchY {
 					b.samples[k] = append(b.samples[k], y)
 				}
@@ -489,7 +500,7 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 				b.samples[k] = append(b.samples[k], g)
 			}
 			b.oscCell[k] += wt * b.cpConj[k] * oa
-			bregman += wt * s.Area[k] * convex.Gap(G, g, convex.Flux(G, b.g1[k]))
+			bregman += wt * s.Area[k] * b.gp.gap(g, convex.Flux(G, b.g1[k]))
 		}
 		for i, bd := range b.nb.bounds {
 			var n float64
@@ -582,7 +593,6 @@ func (b *Parabolic) safeguardGap(tau float64, ya, yb Flux) float64 {
 	}
 	s := b.s
 	m := s.Mesh
-	G := b.p.G
 	q := &slabQuad{dim: m.Dim, rule: b.rule, tx: b.tx, tw: b.tw, rel: 1e-6, maxDepth: 8}
 	budget := 256
 	if m.Dim == 2 {
@@ -595,7 +605,7 @@ func (b *Parabolic) safeguardGap(tau float64, ya, yb Flux) float64 {
 			y0, _ := ya.At(k, lam)
 			y = [2]float64{(1-sq)*y0[0] + sq*y[0], (1-sq)*y0[1] + sq*y[1]}
 		}
-		out[0] = convex.Gap(G, g, y)
+		out[0] = b.gp.gap(g, y)
 	}
 	var total, area float64
 	for k := range m.Cells {
