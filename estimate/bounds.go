@@ -148,6 +148,7 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	rbuf := make([]float64, nq)
 	wbuf := make([]float64, nq)
 	gp := newGapper(p.G)
+	pc := newPower(conj)
 	dim := s.Mesh.Dim
 	// Pass 1: the base rule on every cell; the residual powers by a bound
 	// where r may vanish, cells where y* may vanish remembered for pass 2.
@@ -159,22 +160,40 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		smin, smax := math.Inf(1), 0.0
 		rmin, rmax := math.Inf(1), math.Inf(-1)
 		var fmax float64
+		// The cell's vertices and nodal values, read once for all points.
+		var px, py, pv [3]float64
+		for a := range dim + 1 {
+			n := s.Mesh.Nodes[c[a]]
+			px[a], py[a], pv[a] = n.X, n.Y, v[c[a]]
+		}
 		for q, lam := range lams {
 			w := wref[q] * s.Area[k]
-			x, yy := physical(s, k, lam)
+			x := lam[0]*px[0] + lam[1]*px[1] + lam[2]*px[2]
+			yy := lam[0]*py[0] + lam[1]*py[1] + lam[2]*py[2]
+			vx := lam[0]*pv[0] + lam[1]*pv[1] + lam[2]*pv[2]
 			ys, div := y.At(k, lam)
 			dk += w * gp.gap(g, ys)
+			// Plain comparisons: the values are finite or caught below as
+			// non-finite terms, so math.Min's NaN handling is not needed.
 			sy := math.Sqrt(ys[0]*ys[0] + ys[1]*ys[1])
-			smin, smax = math.Min(smin, sy), math.Max(smax, sy)
-			fx := p.F(x, yy)
-			vx := 0.0
-			for a := range dim + 1 {
-				vx += lam[a] * v[c[a]]
+			if sy < smin {
+				smin = sy
 			}
+			if sy > smax {
+				smax = sy
+			}
+			fx := p.F(x, yy)
 			fv += w * fx * vx
 			r := fx + div
-			fmax = math.Max(fmax, math.Abs(fx)+math.Abs(div))
-			rmin, rmax = math.Min(rmin, r), math.Max(rmax, r)
+			if a := math.Abs(fx) + math.Abs(div); a > fmax {
+				fmax = a
+			}
+			if r < rmin {
+				rmin = r
+			}
+			if r > rmax {
+				rmax = r
+			}
 			rbuf[q], wbuf[q] = r, w
 			mk += w * r
 		}
@@ -188,7 +207,7 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		rk, ok := 0.0, residualPower(rbuf, wbuf, mk, conj, rule.Degree)
 		if conj == 2 || rabs > nearZero*(rmax-rmin) || math.Max(-rmin, rmax) <= roundoff*fmax {
 			for q, r := range rbuf {
-				rk += wbuf[q] * absPow(r, conj)
+				rk += wbuf[q] * pc.of(math.Abs(r))
 			}
 		} else {
 			rk = residualPower(rbuf, wbuf, 0, conj, rule.Degree)
@@ -196,7 +215,7 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		}
 		t.Cell[k] = dk
 		t.res[k] = rk
-		t.mean[k] = s.Area[k] * absPow(mk, conj)
+		t.mean[k] = s.Area[k] * pc.of(math.Abs(mk))
 		t.osc[k] = ok
 		totalD += dk
 		area += s.Area[k]

@@ -18,6 +18,8 @@ type gapper struct {
 	conj  float64
 	inv   float64   // 1/(α − 1)
 	coef  []float64 // c_k of φ(1 + u) = Σ_{k≥2} c_k u^k, coef[0] = c_2
+	// powA, powConj and powInv are x^α, x^{α'} and x^{1/(α−1)}.
+	powA, powConj, powInv power
 }
 
 // seriesRadius is the |u| below which φ is summed as a series; beyond it
@@ -31,6 +33,7 @@ func newGapper(G convex.Potential) gapper {
 		return gp
 	}
 	gp.power, gp.alpha, gp.conj, gp.inv = true, alpha, alpha/(alpha-1), 1/(alpha-1)
+	gp.powA, gp.powConj, gp.powInv = newPower(gp.alpha), newPower(gp.conj), newPower(gp.inv)
 	// φ(x) = ∫_1^x (r^{α−1} − 1) dr = Σ_{k≥2} C(α−1, k−1) u^k / k, u = x − 1
 	// (binomial series, |u| < 1). Terms for |u| ≤ 1/4 fall below 1e-17 of
 	// the leading one within 40 steps past k = α.
@@ -80,12 +83,12 @@ func (gp *gapper) gap(xi, eta [2]float64) float64 {
 // binomial series near x = 1 and in closed form elsewhere.
 func (gp *gapper) scalar(t, s float64) float64 {
 	if s == 0 {
-		return math.Pow(t, gp.alpha) / gp.alpha
+		return gp.powA.of(t) / gp.alpha
 	}
 	if t == 0 {
-		return math.Pow(s, gp.conj) / gp.conj
+		return gp.powConj.of(s) / gp.conj
 	}
-	tau := math.Pow(s, gp.inv)
+	tau := gp.powInv.of(s)
 	if tau == 0 || math.IsInf(tau, 0) {
 		return convex.ScalarGap(gp.G, t, s)
 	}
@@ -103,7 +106,7 @@ func (gp *gapper) scalar(t, s float64) float64 {
 			p *= u
 		}
 	} else {
-		phi = math.Pow(x, gp.alpha)/gp.alpha + 1/gp.conj - x
+		phi = gp.powA.of(x)/gp.alpha + 1/gp.conj - x
 	}
 	if phi < 0 {
 		return 0
@@ -258,4 +261,43 @@ func absPow(r, a float64) float64 {
 		return r * r
 	}
 	return math.Pow(math.Abs(r), a)
+}
+
+// power evaluates x^e for x ≥ 0 and a fixed exponent e. Exponents that are
+// whole or half-whole numbers up to maxHalfPower (the conjugate pairs
+// α = 3, α' = 3/2 and α = 3/2, α' = 3, α = α' = 2, ...) use products and
+// one square root, several times cheaper than math.Pow and as accurate to
+// a few ulp; any other exponent goes to math.Pow.
+type power struct {
+	e     float64
+	whole int  // ⌊e⌋ when fast
+	half  bool // e − ⌊e⌋ = 1/2
+	fast  bool
+}
+
+// maxHalfPower bounds the exponents of the product form, so that the
+// products stay within a few ulp.
+const maxHalfPower = 8
+
+func newPower(e float64) power {
+	p := power{e: e}
+	if h := 2 * e; h == math.Trunc(h) && h > 0 && e <= maxHalfPower {
+		p.fast, p.whole, p.half = true, int(math.Floor(e)), h != 2*math.Floor(e)
+	}
+	return p
+}
+
+// of returns x^e for x ≥ 0.
+func (p power) of(x float64) float64 {
+	if !p.fast || math.IsInf(x, 0) || math.IsNaN(x) {
+		return math.Pow(x, p.e)
+	}
+	r := 1.0
+	for range p.whole {
+		r *= x
+	}
+	if p.half {
+		r *= math.Sqrt(x)
+	}
+	return r
 }
