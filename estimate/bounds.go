@@ -432,30 +432,13 @@ func (t *Terms) Bounds(c Constant, mod convex.Modulus) (*Result, error) {
 		R, r.Form = split, SplitResidual
 	}
 	D := t.D
-	phi := func(mu float64) float64 {
-		x, _ := nb.X(mu)
-		return mu - D - R*x
-	}
 	mu := D
 	if R > 0 {
-		// φ(μ)/μ is increasing (X(μ)/μ decreases for both modulus types), so
-		// φ changes sign once on (0, ∞): the crossing is the largest root.
-		lo, hi := D, math.Max(2*D, 1e-300)
-		for phi(hi) <= 0 {
-			lo, hi = hi, 2*hi
-			if math.IsInf(hi, 1) {
-				return nil, errors.New("estimate: the majorant overflows; the residual is too large for these data")
-			}
+		var err error
+		mu, err = largestRoot(D, func(mu float64) float64 { x, _ := nb.X(mu); return R * x })
+		if err != nil {
+			return nil, err
 		}
-		for i := 0; i < 400 && hi-lo > 1e-15*hi; i++ {
-			mid := lo + 0.5*(hi-lo)
-			if phi(mid) <= 0 {
-				lo = mid
-			} else {
-				hi = mid
-			}
-		}
-		mu = hi
 	}
 	x, which := nb.X(mu)
 	num := func(v float64) Number { return Number{Value: v, Label: r.Label, Assumptions: r.Assumptions} }
@@ -585,4 +568,33 @@ func positiveDegree(d int) int {
 		return d + 1
 	}
 	return d
+}
+
+// largestRoot returns the largest s ≥ 0 with s = a + h(s), where h(s)/s
+// decreases (X(μ)/μ decreases for both modulus types, so s − a − h(s)
+// changes sign once), by bracketing and bisection; the upper end of the
+// final bracket is returned, so the root is never under-estimated. Both the
+// elliptic majorant μ̄ and the space-time majorants (MATH.md §4, §7) are
+// such roots.
+func largestRoot(a float64, h func(float64) float64) (float64, error) {
+	phi := func(s float64) float64 { return s - a - h(s) }
+	if h(math.Max(a, 1)) == 0 {
+		return a, nil // no residual term
+	}
+	lo, hi := a, math.Max(2*a, 1e-300)
+	for phi(hi) <= 0 {
+		lo, hi = hi, 2*hi
+		if math.IsInf(hi, 1) {
+			return 0, errors.New("estimate: the majorant overflows; the residual is too large for these data")
+		}
+	}
+	for i := 0; i < 400 && hi-lo > 1e-15*hi; i++ {
+		mid := lo + 0.5*(hi-lo)
+		if phi(mid) <= 0 {
+			lo = mid
+		} else {
+			hi = mid
+		}
+	}
+	return hi, nil
 }

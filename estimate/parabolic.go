@@ -766,31 +766,6 @@ type ParabolicResult struct {
 	Assumptions []string
 }
 
-// largestRoot returns the largest s ≥ 0 with s = a + h(s), where h(s)/s
-// decreases, by bracketing and bisection (the upper end is returned).
-func largestRoot(a float64, h func(float64) float64) (float64, error) {
-	phi := func(s float64) float64 { return s - a - h(s) }
-	if h(math.Max(a, 1)) == 0 {
-		return a, nil // no residual term
-	}
-	lo, hi := a, math.Max(2*a, 1e-300)
-	for phi(hi) <= 0 {
-		lo, hi = hi, 2*hi
-		if math.IsInf(hi, 1) {
-			return 0, errors.New("parabolic bounds: the majorant overflows; the residual is too large for these data")
-		}
-	}
-	for i := 0; i < 400 && hi-lo > 1e-15*hi; i++ {
-		mid := lo + 0.5*(hi-lo)
-		if phi(mid) <= 0 {
-			lo = mid
-		} else {
-			hi = mid
-		}
-	}
-	return hi, nil
-}
-
 // Bounds returns the bounds after the steps so far: (P-MAJ), the modulus
 // form with the global Friedrichs constant and the constant-free form
 // (MATH.md §7), with the indicators.
