@@ -169,6 +169,8 @@ func Interval(a, b float64, n int) (*Mesh, error) {
 
 // Rectangle returns a mesh of [x0, x1] × [y0, y1] with nx × ny squares, each
 // cut into two triangles along the diagonal from lower left to upper right.
+// When nx and ny are even the rectangle with half as many squares per side
+// is its Coarse mesh (recursively), as though it had been refined from it.
 func Rectangle(x0, x1, y0, y1 float64, nx, ny int) (*Mesh, error) {
 	if !(x1 > x0) || !(y1 > y0) || math.IsInf(x0, 0) || math.IsInf(x1, 0) || math.IsInf(y0, 0) || math.IsInf(y1, 0) {
 		return nil, fmt.Errorf("rectangle: need x0 < x1 and y0 < y1, all finite; got [%g, %g] × [%g, %g]", x0, x1, y0, y1)
@@ -203,7 +205,50 @@ func Rectangle(x0, x1, y0, y1 float64, nx, ny int) (*Mesh, error) {
 		m.BoundaryEdges = append(m.BoundaryEdges, [2]int32{id(nx, j), id(nx, j+1)}, [2]int32{id(0, j+1), id(0, j)})
 	}
 	m.markBoundary()
+	if nx%2 == 0 && ny%2 == 0 {
+		c, err := Rectangle(x0, x1, y0, y1, nx/2, ny/2)
+		if err != nil {
+			return nil, err
+		}
+		m.coarsen(c, nx, ny)
+	}
 	return m, nil
+}
+
+// coarsen records the rectangle c of (nx/2) × (ny/2) squares as the coarse
+// mesh of m, exactly as if m had been made from c by Refine (each node of m
+// is a node or an edge midpoint of c, each cell lies in one cell of c), but
+// with the row-by-row numbering of Rectangle. Multigrid and nested
+// iteration then see a hierarchy on rectangles too, and their iteration
+// counts stay independent of h.
+func (m *Mesh) coarsen(c *Mesh, nx, ny int) {
+	cx := nx / 2
+	cid := func(i, j int) int32 { return int32(j*(cx+1) + i) }
+	m.Coarse = c
+	m.Parents = make([][2]int32, len(m.Nodes))
+	for j := 0; j <= ny; j++ {
+		for i := 0; i <= nx; i++ {
+			// The diagonal of a coarse square runs from its lower left to
+			// its upper right corner, so a node in the middle of the square
+			// is the midpoint of that diagonal.
+			m.Parents[j*(nx+1)+i] = [2]int32{cid(i/2, j/2), cid((i+1)/2, (j+1)/2)}
+		}
+	}
+	m.CellParent = make([]int32, len(m.Cells))
+	for j := 0; j < ny; j++ {
+		for i := 0; i < nx; i++ {
+			sq := int32(2 * ((j/2)*cx + i/2))
+			lower, upper := sq, sq+1 // coarse cells below and above the diagonal
+			switch di, dj := i%2, j%2; {
+			case di > dj:
+				upper = sq
+			case di < dj:
+				lower = sq + 1
+			}
+			k := 2 * (j*nx + i)
+			m.CellParent[k], m.CellParent[k+1] = lower, upper
+		}
+	}
 }
 
 func (m *Mesh) markBoundary() {
