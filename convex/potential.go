@@ -86,7 +86,15 @@ type scalarGapper interface {
 	scalarGap(t, s float64) float64
 }
 
-func norm(v [2]float64) float64 { return math.Hypot(v[0], v[1]) }
+// norm is |v|: the plain square root of the sum of squares where the
+// squares can neither overflow nor underflow, math.Hypot otherwise.
+func norm(v [2]float64) float64 {
+	a, b := math.Abs(v[0]), math.Abs(v[1])
+	if m := max(a, b); m < 1e150 && m > 1e-150 {
+		return math.Sqrt(v[0]*v[0] + v[1]*v[1])
+	}
+	return math.Hypot(v[0], v[1])
+}
 
 // Value returns G(ξ) = g(|ξ|).
 func Value(G Potential, xi [2]float64) float64 {
