@@ -18,7 +18,7 @@ func checkAlpha(who string, alpha float64) error {
 // powerPot is g(t) = t^α/α; hess and dual are t^{α−2} and s^{1/(α−1)}.
 type powerPot struct {
 	alpha, conj float64
-	hess, dual  halfPower
+	hess, dual  FastPow
 }
 
 // Power returns the power potential G(ξ) = |ξ|^α/α, α > 1, whose flux is the
@@ -27,30 +27,30 @@ func Power(alpha float64) (Potential, error) {
 	if err := checkAlpha("power potential", alpha); err != nil {
 		return nil, err
 	}
-	return powerPot{alpha: alpha, conj: alpha / (alpha - 1), hess: newHalfPower(alpha - 2), dual: newHalfPower(1 / (alpha - 1))}, nil
+	return powerPot{alpha: alpha, conj: alpha / (alpha - 1), hess: NewFastPow(alpha - 2), dual: NewFastPow(1 / (alpha - 1))}, nil
 }
 
 func (p powerPot) Profile(t float64) (g, g1, g2 float64) {
 	if t == 0 {
 		return 0, 0, (p.alpha - 1) * math.Pow(0, p.alpha-2)
 	}
-	q := p.hess.of(t)
+	q := p.hess.Of(t)
 	g1 = q * t
 	return g1 * t / p.alpha, g1, (p.alpha - 1) * q
 }
 
 func (p powerPot) Conjugate(s float64) (gs, ds float64) {
-	ds = p.dual.of(s)
+	ds = p.dual.Of(s)
 	return ds * s / p.conj, ds
 }
 
-// halfPower evaluates t^e for t > 0 and a fixed exponent e. Whole and
+// FastPow evaluates t^e for t ≥ 0 and a fixed exponent e. Whole and
 // half-whole exponents of size up to 8 (α = 3: t^1 and s^{1/2}; α = 3/2:
 // t^{−1/2} and s^2; α = 4: t^2, ...) use products, one square root and at
 // most one division, several times cheaper than math.Pow and within a few
-// ulp of it; other exponents, and t outside [1e-30, 1e30] where the
-// products could overflow or lose range, go to math.Pow.
-type halfPower struct {
+// ulp of it; other exponents, and t outside [1e-30, 1e30] (0, ∞ and NaN
+// included) where the products could lose range, go to math.Pow.
+type FastPow struct {
 	e     float64
 	whole int
 	half  bool
@@ -58,8 +58,9 @@ type halfPower struct {
 	fast  bool
 }
 
-func newHalfPower(e float64) halfPower {
-	p := halfPower{e: e}
+// NewFastPow prepares t^e.
+func NewFastPow(e float64) FastPow {
+	p := FastPow{e: e}
 	a := math.Abs(e)
 	if h := 2 * a; h == math.Trunc(h) && a <= 8 {
 		p.fast, p.whole, p.half, p.neg = true, int(math.Floor(a)), h != 2*math.Floor(a), e < 0
@@ -67,7 +68,8 @@ func newHalfPower(e float64) halfPower {
 	return p
 }
 
-func (p halfPower) of(t float64) float64 {
+// Of returns t^e.
+func (p FastPow) Of(t float64) float64 {
 	if !p.fast || !(t >= 1e-30 && t <= 1e30) {
 		return math.Pow(t, p.e)
 	}

@@ -166,16 +166,17 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 			n := s.Mesh.Nodes[c[a]]
 			px[a], py[a], pv[a] = n.X, n.Y, v[c[a]]
 		}
+		gc := gp.cell(g)
 		for q, lam := range lams {
 			w := wref[q] * s.Area[k]
 			x := lam[0]*px[0] + lam[1]*px[1] + lam[2]*px[2]
 			yy := lam[0]*py[0] + lam[1]*py[1] + lam[2]*py[2]
 			vx := lam[0]*pv[0] + lam[1]*pv[1] + lam[2]*pv[2]
 			ys, div := y.At(k, lam)
-			dk += w * gp.gap(g, ys)
+			sy := math.Sqrt(ys[0]*ys[0] + ys[1]*ys[1])
+			dk += w * gp.at(&gc, ys, sy)
 			// Plain comparisons: the values are finite or caught below as
 			// non-finite terms, so math.Min's NaN handling is not needed.
-			sy := math.Sqrt(ys[0]*ys[0] + ys[1]*ys[1])
 			if sy < smin {
 				smin = sy
 			}

@@ -62,20 +62,37 @@ func isPower(G convex.Potential, alpha float64) bool {
 
 // gap returns D_G(ξ, η) = d(|ξ|, |η|) + (|ξ||η| − ξ·η) (MATH.md §2).
 func (gp *gapper) gap(xi, eta [2]float64) float64 {
-	if !gp.power {
-		return convex.Gap(gp.G, xi, eta)
+	c := gp.cell(xi)
+	return gp.at(&c, eta, math.Sqrt(eta[0]*eta[0]+eta[1]*eta[1]))
+}
+
+// gapCell is what D_G(ξ, ·) needs of a fixed ξ (∇v on one cell), computed
+// once for all the quadrature points of the cell.
+type gapCell struct {
+	xi [2]float64
+	t  float64    // |ξ|
+	n  [2]float64 // ξ/|ξ|, 0 for ξ = 0
+}
+
+func (gp *gapper) cell(xi [2]float64) gapCell {
+	c := gapCell{xi: xi, t: math.Sqrt(xi[0]*xi[0] + xi[1]*xi[1])}
+	if c.t > 0 {
+		c.n = [2]float64{xi[0] / c.t, xi[1] / c.t}
 	}
-	t := math.Sqrt(xi[0]*xi[0] + xi[1]*xi[1])
-	s := math.Sqrt(eta[0]*eta[0] + eta[1]*eta[1])
-	if math.IsInf(t, 0) || math.IsInf(s, 0) || t > 1e100 || s > 1e100 {
-		return convex.Gap(gp.G, xi, eta)
+	return c
+}
+
+// at returns D_G(ξ, η) for the ξ of c, given s = |η|.
+func (gp *gapper) at(c *gapCell, eta [2]float64, s float64) float64 {
+	if !gp.power || math.IsInf(c.t, 0) || math.IsInf(s, 0) || c.t > 1e100 || s > 1e100 {
+		return convex.Gap(gp.G, c.xi, eta)
 	}
-	d := gp.scalar(t, s)
-	if t == 0 || s == 0 {
+	d := gp.scalar(c.t, s)
+	if c.t == 0 || s == 0 {
 		return d
 	}
-	ux, uy := xi[0]/t-eta[0]/s, xi[1]/t-eta[1]/s
-	return d + 0.5*t*s*(ux*ux+uy*uy)
+	ux, uy := c.n[0]-eta[0]/s, c.n[1]-eta[1]/s
+	return d + 0.5*c.t*s*(ux*ux+uy*uy)
 }
 
 // scalar is d(t, s) = t^α/α + s^{α'}/α' − t s for the power potential: with
@@ -263,41 +280,11 @@ func absPow(r, a float64) float64 {
 	return math.Pow(math.Abs(r), a)
 }
 
-// power evaluates x^e for x ≥ 0 and a fixed exponent e. Exponents that are
-// whole or half-whole numbers up to maxHalfPower (the conjugate pairs
-// α = 3, α' = 3/2 and α = 3/2, α' = 3, α = α' = 2, ...) use products and
-// one square root, several times cheaper than math.Pow and as accurate to
-// a few ulp; any other exponent goes to math.Pow.
-type power struct {
-	e     float64
-	whole int  // ⌊e⌋ when fast
-	half  bool // e − ⌊e⌋ = 1/2
-	fast  bool
-}
+// power is x^e for x ≥ 0 and a fixed exponent e, by products and one
+// square root for the whole and half-whole exponents (convex.FastPow).
+type power struct{ convex.FastPow }
 
-// maxHalfPower bounds the exponents of the product form, so that the
-// products stay within a few ulp.
-const maxHalfPower = 8
-
-func newPower(e float64) power {
-	p := power{e: e}
-	if h := 2 * e; h == math.Trunc(h) && h > 0 && e <= maxHalfPower {
-		p.fast, p.whole, p.half = true, int(math.Floor(e)), h != 2*math.Floor(e)
-	}
-	return p
-}
+func newPower(e float64) power { return power{convex.NewFastPow(e)} }
 
 // of returns x^e for x ≥ 0.
-func (p power) of(x float64) float64 {
-	if !p.fast || math.IsInf(x, 0) || math.IsNaN(x) {
-		return math.Pow(x, p.e)
-	}
-	r := 1.0
-	for range p.whole {
-		r *= x
-	}
-	if p.half {
-		r *= math.Sqrt(x)
-	}
-	return r
-}
+func (p power) of(x float64) float64 { return p.Of(x) }

@@ -240,29 +240,6 @@ func TestQuadratureSafeguard(t *testing.T) {
 	}
 }
 
-// TestPowerMatchesPow checks the product form of power against math.Pow
-// (identity x^e = exp(e log x); math.Pow as the reference), for the fast
-// half-whole exponents and for exponents that take the math.Pow path.
-func TestPowerMatchesPow(t *testing.T) {
-	cases := []struct {
-		e    float64
-		fast bool
-	}{{0.5, true}, {1, true}, {1.5, true}, {2, true}, {3, true}, {7.5, true},
-		{1.25, false}, {4.0 / 3, false}, {8.5, false}, {0, false}}
-	for _, c := range cases {
-		p := newPower(c.e)
-		if p.fast != c.fast {
-			t.Errorf("newPower(%g).fast = %v, want %v", c.e, p.fast, c.fast)
-		}
-		for _, x := range []float64{0, 1e-300, 3e-7, 0.37, 1, 2.5, 1e9, math.Inf(1)} {
-			got, want := p.of(x), math.Pow(x, c.e)
-			if got != want && math.Abs(got-want) > 1e-14*math.Abs(want) {
-				t.Errorf("power %g of %g = %.17g, want %.17g", c.e, x, got, want)
-			}
-		}
-	}
-}
-
 // referenceGap is ∫ D_G(∇v, y*) by the collapsed degree-14 rule with
 // adaptive subdivision (common practice, no source) to an absolute
 // tolerance tol·|total| spread over the cells by area, down to depth 12:
