@@ -147,6 +147,8 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	}
 	rbuf := make([]float64, nq)
 	wbuf := make([]float64, nq)
+	ybuf := make([][2]float64, nq)
+	dbuf := make([]float64, nq)
 	gp := newGapper(p.G)
 	pc := newPower(conj)
 	dim := s.Mesh.Dim
@@ -167,12 +169,13 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 			px[a], py[a], pv[a] = n.X, n.Y, v[c[a]]
 		}
 		gc := gp.cell(g)
+		atPoints(y, k, lams, ybuf, dbuf)
 		for q, lam := range lams {
 			w := wref[q] * s.Area[k]
 			x := lam[0]*px[0] + lam[1]*px[1] + lam[2]*px[2]
 			yy := lam[0]*py[0] + lam[1]*py[1] + lam[2]*py[2]
 			vx := lam[0]*pv[0] + lam[1]*pv[1] + lam[2]*pv[2]
-			ys, div := y.At(k, lam)
+			ys, div := ybuf[q], dbuf[q]
 			sy := math.Sqrt(ys[0]*ys[0] + ys[1]*ys[1])
 			dk += w * gp.at(&gc, ys, sy)
 			// Plain comparisons: the values are finite or caught below as
@@ -240,8 +243,10 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	t.Quadrature.ExtraPoints = cq.evals
 	var sumD, sumRes, sumMean, sumOsc float64
 	diam := s.Mesh.Diameters()
+	// C_P,α(T) is linear in diam(T): C_P(T)^{α'} = C_P(1)^{α'} diam(T)^{α'}.
+	cp1 := math.Pow(convex.PoincareConvex(alpha, 1), conj)
 	for k := range s.Mesh.Cells {
-		t.osc[k] *= math.Pow(convex.PoincareConvex(alpha, diam[k]), conj)
+		t.osc[k] *= cp1 * pc.of(diam[k])
 		sumD += t.Cell[k]
 		sumRes += t.res[k]
 		sumMean += t.mean[k]

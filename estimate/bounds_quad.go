@@ -11,19 +11,26 @@ import (
 // it uses a closed form or a short series instead of convex.Gap's 12-point
 // Gauss rule of transcendental integrands, at a quarter of the cost; any
 // other potential goes to convex.Gap.
+//
+// The scalar part d(t, s) = g(t) + g*(s) − ts is symmetric under exchanging
+// (g, t) with (g*, s), so it is evaluated with the exponent e = α or e = α',
+// whichever is a whole number (the binomial series then ends after e terms:
+// α = 3/2 uses α' = 3), and with α when neither is.
 type gapper struct {
 	G     convex.Potential
 	power bool
 	alpha float64
-	conj  float64
-	inv   float64   // 1/(α − 1)
-	coef  []float64 // c_k of φ(1 + u) = Σ_{k≥2} c_k u^k, coef[0] = c_2
-	// powA, powConj and powInv are x^α, x^{α'} and x^{1/(α−1)}.
+	// swap says that e = α' and the arguments are exchanged.
+	swap bool
+	e    float64
+	conj float64   // e' = e/(e − 1)
+	coef []float64 // c_k of φ(1 + u) = Σ_{k≥2} c_k u^k, coef[0] = c_2
+	// powA, powConj and powInv are x^e, x^{e'} and x^{1/(e−1)}.
 	powA, powConj, powInv power
 }
 
 // seriesRadius is the |u| below which φ is summed as a series; beyond it
-// the closed form cancels at most a factor 2/((α − 1) u²) (64 at α = 1.5).
+// the closed form cancels at most a factor 2/((e − 1) u²) (64 at e = 1.5).
 const seriesRadius = 0.25
 
 func newGapper(G convex.Potential) gapper {
@@ -32,14 +39,23 @@ func newGapper(G convex.Potential) gapper {
 	if !ok || !isPower(G, alpha) {
 		return gp
 	}
-	gp.power, gp.alpha, gp.conj, gp.inv = true, alpha, alpha/(alpha-1), 1/(alpha-1)
-	gp.powA, gp.powConj, gp.powInv = newPower(gp.alpha), newPower(gp.conj), newPower(gp.inv)
-	// φ(x) = ∫_1^x (r^{α−1} − 1) dr = Σ_{k≥2} C(α−1, k−1) u^k / k, u = x − 1
+	gp.power, gp.alpha, gp.e = true, alpha, alpha
+	if conj := alpha / (alpha - 1); alpha != math.Trunc(alpha) && conj == math.Trunc(conj) {
+		gp.swap, gp.e = true, conj
+	}
+	e := gp.e
+	gp.conj = e / (e - 1)
+	gp.powA, gp.powConj, gp.powInv = newPower(e), newPower(gp.conj), newPower(1/(e-1))
+	// φ(x) = ∫_1^x (r^{e−1} − 1) dr = Σ_{k≥2} C(e−1, k−1) u^k / k, u = x − 1
 	// (binomial series, |u| < 1). Terms for |u| ≤ 1/4 fall below 1e-17 of
-	// the leading one within 40 steps past k = α.
-	binom := 1.0 // C(α−1, k−1)
-	for k := 2; k < 48+int(alpha); k++ {
-		binom *= (alpha - float64(k-1)) / float64(k-1)
+	// the leading one within 40 steps past k = e; for a whole e they vanish
+	// past k = e and the list ends there.
+	binom := 1.0 // C(e−1, k−1)
+	for k := 2; k < 48+int(e); k++ {
+		binom *= (e - float64(k-1)) / float64(k-1)
+		if binom == 0 {
+			break
+		}
 		gp.coef = append(gp.coef, binom/float64(k))
 	}
 	return gp
@@ -95,19 +111,24 @@ func (gp *gapper) at(c *gapCell, eta [2]float64, s float64) float64 {
 	return d + 0.5*c.t*s*(ux*ux+uy*uy)
 }
 
-// scalar is d(t, s) = t^α/α + s^{α'}/α' − t s for the power potential: with
-// τ = s^{1/(α−1)}, x = t/τ, d = τ s φ(x), φ(x) = x^α/α + 1/α' − x, by the
+// scalar is d(t, s) = t^α/α + s^{α'}/α' − t s for the power potential,
+// evaluated with the exponent e (arguments exchanged when e = α'): with
+// τ = s^{1/(e−1)}, x = t/τ, d = τ s φ(x), φ(x) = x^e/e + 1/e' − x, by the
 // binomial series near x = 1 and in closed form elsewhere.
 func (gp *gapper) scalar(t, s float64) float64 {
+	t0, s0 := t, s
+	if gp.swap {
+		t, s = s, t
+	}
 	if s == 0 {
-		return gp.powA.of(t) / gp.alpha
+		return gp.powA.of(t) / gp.e
 	}
 	if t == 0 {
 		return gp.powConj.of(s) / gp.conj
 	}
 	tau := gp.powInv.of(s)
 	if tau == 0 || math.IsInf(tau, 0) {
-		return convex.ScalarGap(gp.G, t, s)
+		return convex.ScalarGap(gp.G, t0, s0)
 	}
 	x := t / tau
 	u := x - 1
@@ -123,7 +144,7 @@ func (gp *gapper) scalar(t, s float64) float64 {
 			p *= u
 		}
 	} else {
-		phi = gp.powA.of(x)/gp.alpha + 1/gp.conj - x
+		phi = gp.powA.of(x)/gp.e + 1/gp.conj - x
 	}
 	if phi < 0 {
 		return 0
@@ -263,11 +284,19 @@ func residualPower(r, w []float64, shift, a float64, degree int) float64 {
 		lo += w[q] * p
 		hi += w[q] * p * x * x
 	}
-	if theta == 1 {
+	switch theta {
+	case 1:
 		return lo
-	}
-	if theta == 0 {
+	case 0:
 		return hi
+	case 0.5: // α' = 3, 5, 7: the geometric mean
+		return math.Sqrt(lo * hi)
+	case 0.25: // α' = 3/2, 7/2, ...: lo^{1/4} hi^{3/4}
+		q := math.Sqrt(math.Sqrt(hi))
+		return math.Sqrt(math.Sqrt(lo)) * q * q * q
+	case 0.75:
+		q := math.Sqrt(math.Sqrt(lo))
+		return q * q * q * math.Sqrt(math.Sqrt(hi))
 	}
 	return math.Pow(lo, theta) * math.Pow(hi, 1-theta)
 }

@@ -122,6 +122,19 @@ func TestResidualPower(t *testing.T) {
 				wv = append(wv, rule.Weights[i])
 			}
 			got := residualPower(rv, wv, 0, a, rule.Degree)
+			// The quarter and half powers by square roots agree with the
+			// general form lo^θ hi^{1−θ} by math.Pow (reference: the
+			// standard library).
+			m := math.Floor(a / 2)
+			th := (2*m + 2 - a) / 2
+			var lo, hi float64
+			for i, x := range rv {
+				lo += wv[i] * math.Pow(x*x, m)
+				hi += wv[i] * math.Pow(x*x, m+1)
+			}
+			if ref := math.Pow(lo, th) * math.Pow(hi, 1-th); math.Abs(got-ref) > 1e-14*ref {
+				t.Errorf("a=%g zero %g: %.17g, Pow form %.17g", a, z, got, ref)
+			}
 			// Exact: r has one zero x0 in [0, 1] or none; Gauss on each side.
 			var want float64
 			x0 := (-1 + math.Sqrt(1+1.2*z)) / 0.6
@@ -291,4 +304,41 @@ func referenceGap(s *fem.P1, G convex.Potential, grad [][2]float64, y Flux, tol 
 		rec(k, unitSimplex, 1, on(k, unitSimplex), 1)
 	}
 	return sum, errs
+}
+
+// TestCellFlux checks the cell-at-once evaluation of the averaged and
+// equilibrated (RT0, RT1) fluxes against their pointwise At, bit for bit
+// (the same products in the same order: an identity).
+func TestCellFlux(t *testing.T) {
+	m := must(mesh.Rectangle(0, 1, 0, 1, 4, 4))
+	s := must(fem.NewP1(m))
+	G := must(convex.Power(3))
+	v := make([]float64, m.NumNodes())
+	for i, p := range m.Nodes {
+		v[i] = math.Sin(3*p.X) * (1 + p.Y*p.Y)
+	}
+	f := func(x, y float64) float64 { return 1 + x*y }
+	fluxes := []Flux{must(NewAveraged(s, G, v))}
+	for _, order := range []int{0, 1} {
+		fluxes = append(fluxes, must(Equilibrate(context.Background(), s, G, v, FuncSource(m, f), EquilibrateOptions{Order: order})))
+	}
+	rule := s.Rule(8)
+	lams := make([][3]float64, rule.Len())
+	for q, pt := range rule.Points {
+		lams[q], _ = cellPoint(2, pt)
+	}
+	ys, divs := make([][2]float64, len(lams)), make([]float64, len(lams))
+	for i, y := range fluxes {
+		if _, ok := y.(cellFlux); !ok {
+			t.Fatalf("flux %d has no cell evaluation", i)
+		}
+		for k := range m.Cells {
+			atPoints(y, k, lams, ys, divs)
+			for q, lam := range lams {
+				if wy, wd := y.At(k, lam); wy != ys[q] || wd != divs[q] {
+					t.Fatalf("flux %d cell %d point %d: %v %g, At gives %v %g", i, k, q, ys[q], divs[q], wy, wd)
+				}
+			}
+		}
+	}
 }
