@@ -81,7 +81,9 @@ type ParabolicOptions struct {
 	// TimePoints is the number of Gauss points in time per step (default 3).
 	TimePoints int
 	// InitialSplit and InitialDegree set the composite rule of ½‖e(0)‖²
-	// (defaults 4 and 8).
+	// (defaults 2 and 8): the rule on InitialSplit/2 sub-cells per edge is
+	// the parent, its first subdivision the check, and only cells where the
+	// check fails are subdivided further.
 	InitialSplit, InitialDegree int
 	// Exact, if set, is used to accumulate the true error terms.
 	Exact *ExactSolution
@@ -128,12 +130,24 @@ type Parabolic struct {
 	// the true error terms keep convex.Gap so that they stay independent.
 	gp gapper
 	// scratch
-	g0, g1, gq [][2]float64
+	g0, g1     [][2]float64
 	d          []float64
 	cpConj     []float64
 	rule       fem.Rule
 	tx, tw     []float64
 	rbuf, wbuf []float64
+	// per point of the space rule: barycentric coordinates and weight
+	// (times the reference measure); per time point: sums, times, weights,
+	// ∇v, its gap data, cell gap and cell mean of r
+	lam        [][3]float64
+	pw         []float64
+	tsums      []slabSums
+	tnorms     []float64
+	tt, twt    []float64
+	tg         [][2]float64
+	tgc        []gapCell
+	tdk        []float64
+	tmk        []float64
 	exRule     fem.Rule
 	exTx, exTw []float64
 	// accumulators
@@ -189,7 +203,7 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 		o.Split = 1
 	}
 	if o.InitialSplit <= 0 {
-		o.InitialSplit = 4
+		o.InitialSplit = 2
 	}
 	if o.InitialDegree <= 0 {
 		o.InitialDegree = 8
@@ -217,7 +231,7 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 	}
 	b.norms = make([]float64, len(b.nb.bounds))
 	nc, nn := s.Mesh.NumCells(), s.Mesh.NumNodes()
-	b.g0, b.g1, b.gq = make([][2]float64, nc), make([][2]float64, nc), make([][2]float64, nc)
+	b.g0, b.g1 = make([][2]float64, nc), make([][2]float64, nc)
 	b.d = make([]float64, nn)
 	b.cells, b.oscCell = make([]float64, nc), make([]float64, nc)
 	b.cpConj = make([]float64, nc)
@@ -230,8 +244,17 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 		b.cpConj[k] = math.Pow(convex.PoincareConvex(alpha, dk), b.conj)
 	}
 	b.rule = CompositeRule(s.Mesh.Dim, o.Degree, o.Split)
-	b.rbuf, b.wbuf = make([]float64, b.rule.Len()), make([]float64, b.rule.Len())
 	b.tx, b.tw = fem.Gauss(o.TimePoints, 0, 1)
+	np, nt := b.rule.Len(), len(b.tx)
+	b.rbuf, b.wbuf = make([]float64, nt*np), make([]float64, np)
+	b.lam, b.pw = make([][3]float64, np), make([]float64, np)
+	for i, pt := range b.rule.Points {
+		lam, scale := cellPoint(s.Mesh.Dim, pt)
+		b.lam[i], b.pw[i] = lam, b.rule.Weights[i]*scale
+	}
+	b.tsums, b.tnorms = make([]slabSums, nt), make([]float64, nt*len(b.nb.bounds))
+	b.tt, b.twt, b.tdk, b.tmk = make([]float64, nt), make([]float64, nt), make([]float64, nt), make([]float64, nt)
+	b.tg, b.tgc = make([][2]float64, nt), make([]gapCell, nt)
 	if e := o.Exact; e != nil {
 		if e.U == nil || e.Grad == nil {
 			return nil, errors.New("parabolic bounds: the exact solution needs U and Grad")
@@ -434,88 +457,126 @@ func (b *Parabolic) reconstructStart(ctx context.Context, v0 []float64, t0 float
 	return e, nil
 }
 
+// slabSums are the sums of one time point of the slab rule over the cells.
+type slabSums struct {
+	gap, rho2, mean2, oscA, resA, meanA, bregman float64
+}
+
 // slab integrates one step by the Gauss rule in time and the space rule:
 // the gap, the residual norms, the Bregman change of ∇v (time indicator).
+// The loops run cell by cell and point by point with the time points
+// innermost, so that what does not depend on t is computed once per cell
+// (∇v(t) and its gap data, the vertices, ∂G(∇v_n)) or once per point (y*
+// at both ends, whose time interpolation is then two products, ∂_t v, x).
 func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 	s := b.s
 	m := s.Mesh
-	dim, nv := m.Dim, m.Dim+1
+	nv := m.Dim + 1
 	G, q, cf := b.p.G, b.conj, b.o.Friedrichs.Value
 	part := StepPart{T0: t0, T1: t0 + tau}
-	var slabRho, slabGap, slabOsc, slabMean, bregman float64
+	nt, np, nbd := len(b.tx), b.rule.Len(), len(b.nb.bounds)
+	sums, tn := b.tsums, b.tnorms
+	clear(sums)
+	clear(tn)
 	clear(b.cellGap)
 	for k := range b.samples {
 		b.samples[k] = b.samples[k][:0]
 	}
+	ts, wts := b.tt, b.twt
 	for iq, sq := range b.tx {
-		t := t0 + sq*tau
-		wt := tau * b.tw[iq]
-		var dq, rho2, mean2, oscA, resA, meanA float64
-		for k, c := range m.Cells {
-			g := [2]float64{(1-sq)*b.g0[k][0] + sq*b.g1[k][0], (1-sq)*b.g0[k][1] + sq*b.g1[k][1]}
-			b.gq[k] = g
-			var dk, mk, wk float64
-			for iq2, pt := range b.rule.Points {
-				lam, scale := cellPoint(dim, pt)
-				w := b.rule.Weights[iq2] * scale * s.Area[k]
-				y, div := yb.At(k, lam)
+		ts[iq], wts[iq] = t0+sq*tau, tau*b.tw[iq]
+	}
+	gs, gc, dk, mk := b.tg, b.tgc, b.tdk, b.tmk
+	for k, c := range m.Cells {
+		area := s.Area[k]
+		var px, py, dn [3]float64
+		for a := range nv {
+			p := m.Nodes[c[a]]
+			px[a], py[a], dn[a] = p.X, p.Y, b.d[c[a]]
+		}
+		fl := convex.Flux(G, b.g1[k])
+		flAbs := math.Sqrt(fl[0]*fl[0] + fl[1]*fl[1])
+		for iq, sq := range b.tx {
+			gs[iq] = [2]float64{(1-sq)*b.g0[k][0] + sq*b.g1[k][0], (1-sq)*b.g0[k][1] + sq*b.g1[k][1]}
+			gc[iq] = b.gp.cell(gs[iq])
+			dk[iq], mk[iq] = 0, 0
+		}
+		var wk float64
+		for i := range np {
+			lam, w := b.lam[i], b.pw[i]*area
+			y1, d1 := yb.At(k, lam)
+			y0, d0 := y1, d1
+			if ya != yb {
+				y0, d0 = ya.At(k, lam)
+			}
+			var dv, x, yy float64
+			for a := range nv {
+				dv += lam[a] * dn[a]
+				x += lam[a] * px[a]
+				yy += lam[a] * py[a]
+			}
+			for iq, sq := range b.tx {
+				y, div := y1, d1
 				if ya != yb {
-					y0, d0 := ya.At(k, lam)
-					y = [2]float64{(1-sq)*y0[0] + sq*y[0], (1-sq)*y0[1] + sq*y[1]}
-					div = (1-sq)*d0 + sq*div
-				}
-				var dv float64
-				for a := range nv {
-					dv += lam[a] * b.d[c[a]]
+					y = [2]float64{(1-sq)*y0[0] + sq*y1[0], (1-sq)*y0[1] + sq*y1[1]}
+					div = (1-sq)*d0 + sq*d1
 				}
 				r := div - dv
 				if b.p.F != nil {
-					x, yy := physical(s, k, lam)
-					r += b.p.F(x, yy, t)
+					r += b.p.F(x, yy, ts[iq])
 				}
-				dk += w * b.gp.gap(g, y)
+				dk[iq] += w * b.gp.at(&gc[iq], y, math.Sqrt(y[0]*y[0]+y[1]*y[1]))
 				if b.watchY {
 					b.samples[k] = append(b.samples[k], y)
 				}
-				b.rbuf[iq2], b.wbuf[iq2] = r, w
-				mk += w * r
-				wk += w
+				b.rbuf[iq*np+i] = r
+				mk[iq] += w * r
 			}
-			mk /= wk
+			b.wbuf[i] = w
+			wk += w
+		}
+		for iq := range nt {
+			wt, g := wts[iq], gs[iq]
+			mq := mk[iq] / wk
 			var r2, ra, oa float64
-			for i, r := range b.rbuf {
+			for i, r := range b.rbuf[iq*np : (iq+1)*np] {
 				r2 += b.wbuf[i] * r * r
 				ra += b.wbuf[i] * powAbs(r, q)
-				oa += b.wbuf[i] * powAbs(r-mk, q)
+				oa += b.wbuf[i] * powAbs(r-mq, q)
 			}
-			dq += dk
-			rho2 += r2
-			mean2 += s.Area[k] * mk * mk
-			oscA += b.cpConj[k] * oa
-			resA += ra
-			meanA += s.Area[k] * powAbs(mk, q)
-			b.cells[k] += wt * dk
-			b.cellGap[k] += wt * dk
+			sm := &sums[iq]
+			sm.gap += dk[iq]
+			sm.rho2 += r2
+			sm.mean2 += area * mq * mq
+			sm.oscA += b.cpConj[k] * oa
+			sm.resA += ra
+			sm.meanA += area * powAbs(mq, q)
+			b.cells[k] += wt * dk[iq]
+			b.cellGap[k] += wt * dk[iq]
 			if b.watchG {
 				b.samples[k] = append(b.samples[k], g)
 			}
 			b.oscCell[k] += wt * b.cpConj[k] * oa
-			bregman += wt * s.Area[k] * b.gp.gap(g, convex.Flux(G, b.g1[k]))
-		}
-		for i, bd := range b.nb.bounds {
-			var n float64
-			for k, g := range b.gq {
-				n += s.Area[k] * math.Pow(bd.Weight(g), b.alpha)
+			sm.bregman += wt * area * b.gp.at(&gc[iq], fl, flAbs)
+			for i, bd := range b.nb.bounds {
+				tn[i*nt+iq] += area * math.Pow(bd.Weight(g), b.alpha)
 			}
-			b.norms[i] += wt * n
 		}
-		rosc := math.Pow(oscA, 1/q)
-		rq := math.Min(cf*math.Pow(resA, 1/q), rosc+cf*math.Pow(meanA, 1/q))
-		slabGap += wt * dq
-		slabRho += wt * math.Sqrt(rho2)
-		slabMean += wt * math.Sqrt(mean2)
-		slabOsc += wt * oscA
+	}
+	var slabRho, slabGap, slabOsc, slabMean, bregman float64
+	for iq := range nt {
+		wt, sm := wts[iq], sums[iq]
+		for i := range nbd {
+			b.norms[i] += wt * tn[i*nt+iq]
+		}
+		rosc := math.Pow(sm.oscA, 1/q)
+		rq := math.Min(cf*math.Pow(sm.resA, 1/q), rosc+cf*math.Pow(sm.meanA, 1/q))
+		slabGap += wt * sm.gap
+		slabRho += wt * math.Sqrt(sm.rho2)
+		slabMean += wt * math.Sqrt(sm.mean2)
+		slabOsc += wt * sm.oscA
 		b.rQ += wt * math.Pow(rq, q)
+		bregman += sm.bregman
 	}
 	slabGap += b.safeguardGap(tau, ya, yb)
 	b.gap += slabGap
