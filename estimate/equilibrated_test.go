@@ -410,3 +410,101 @@ func TestEquilibratedEfficiency(t *testing.T) {
 		}
 	}
 }
+
+// TestEquilibratorPowerWeights checks the closed forms that gradients and
+// weights use for the power potential against the general route: σ equals
+// convex.Flux and the model weight equals the inverse of convex.Hessian
+// (identities that must hold to rounding), for gradients above, at and
+// below the regularisation radius, zero included, and for exponents on
+// both sides of 2.
+func TestEquilibratorPowerWeights(t *testing.T) {
+	m := eqMust(mesh.Rectangle(0, 1, 0, 1, 4, 4))
+	s := eqMust(fem.NewP1(m))
+	for _, alpha := range []float64{1.3, 1.5, 2, 3, 4.5} {
+		G := eqMust(convex.Power(alpha))
+		q, err := newEquilibrator(s, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		v := make([]float64, m.NumNodes())
+		for i, p := range m.Nodes {
+			// Steep, flat and vanishing gradients on different cells.
+			v[i] = 3*p.X*p.X - p.Y + 1e-3*p.X*p.Y
+			if p.X > 0.7 {
+				v[i] = 0
+			}
+		}
+		gmax := q.gradients(G, v)
+		reg := 0.05 * gmax
+		w := make([][3]float64, m.NumCells())
+		q.weights(G, reg, w)
+		for k, g := range q.grad {
+			sig := convex.Flux(G, g)
+			want := inv2(convex.Hessian(G, g, reg))
+			for d := range 2 {
+				if math.Abs(q.sigma[k][d]-sig[d]) > 1e-13*(1+math.Abs(sig[d])) {
+					t.Errorf("α=%g cell %d ∇v=%v: σ = %v, convex.Flux %v", alpha, k, g, q.sigma[k], sig)
+				}
+			}
+			for j := range 3 {
+				if math.Abs(w[k][j]-want[j]) > 1e-12*(math.Abs(want[0])+math.Abs(want[2])) {
+					t.Errorf("α=%g cell %d ∇v=%v: weight %v, inverse Hessian %v", alpha, k, g, w[k], want)
+				}
+			}
+		}
+	}
+}
+
+// TestCellMatrixPattern checks the pattern of the RT1 stream matrix
+// against the set of coupled dof pairs built by brute force: rows sorted
+// without repeats, exactly the coupled pairs stored, and every local
+// position pointing at its pair (pinned dofs, −1, have none).
+func TestCellMatrixPattern(t *testing.T) {
+	for name, m := range eqMeshes(t) {
+		s := eqMust(fem.NewP1(m))
+		q, err := newEquilibrator(s, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		st := q.st
+		want := map[[2]int32]bool{}
+		for _, d := range st.dof {
+			for _, x := range d {
+				for _, y := range d {
+					if x >= 0 && y >= 0 {
+						want[[2]int32{x, y}] = true
+					}
+				}
+			}
+		}
+		a := st.a
+		if a.NNZ() != len(want) {
+			t.Errorf("%s: %d entries, want %d coupled pairs", name, a.NNZ(), len(want))
+		}
+		for i := range a.Rows {
+			for p := a.RowPtr[i]; p < a.RowPtr[i+1]; p++ {
+				if p > a.RowPtr[i] && a.Col[p] <= a.Col[p-1] {
+					t.Fatalf("%s: row %d not strictly increasing at %d", name, i, p)
+				}
+				if !want[[2]int32{int32(i), a.Col[p]}] {
+					t.Errorf("%s: entry (%d, %d) couples no cell's dofs", name, i, a.Col[p])
+				}
+			}
+		}
+		for k, d := range st.dof {
+			for x, dx := range d {
+				for y, dy := range d {
+					p := st.pos[k][6*x+y]
+					switch {
+					case dx < 0 || dy < 0:
+						if p != -1 {
+							t.Errorf("%s: cell %d local (%d, %d) pinned but position %d", name, k, x, y, p)
+						}
+					case p < a.RowPtr[dx] || p >= a.RowPtr[dx+1] || a.Col[p] != dy:
+						t.Errorf("%s: cell %d local (%d, %d) → position %d, not entry (%d, %d)", name, k, x, y, p, dx, dy)
+					}
+				}
+			}
+		}
+	}
+}

@@ -158,6 +158,12 @@ type equilibrator struct {
 	edgeFlux []float64
 	grad     [][2]float64
 	sigma    [][2]float64
+	// For the power potential (power set by gradients): α, |∇v| and
+	// |∇v|^{α−2} per cell; model holds the weights of the quadratic model.
+	power        bool
+	alpha        float64
+	norm, factor []float64
+	model        [][3]float64
 }
 
 func newEquilibrator(s *fem.P1, order int) (*equilibrator, error) {
@@ -171,7 +177,8 @@ func newEquilibrator(s *fem.P1, order int) (*equilibrator, error) {
 		return nil, fmt.Errorf("equilibrated flux: the mesh has Euler characteristic %d (%d nodes, %d edges, %d cells); the stream-function correction needs a connected domain without holes", nn-ne+nc, nn, ne, nc)
 	}
 	q := &equilibrator{s: s, order: order, rt: rt, edgeCells: make([][2]int32, ne),
-		edgeFlux: make([]float64, ne), grad: make([][2]float64, nc), sigma: make([][2]float64, nc)}
+		edgeFlux: make([]float64, ne), grad: make([][2]float64, nc), sigma: make([][2]float64, nc),
+		norm: make([]float64, nc), factor: make([]float64, nc), model: make([][3]float64, nc)}
 	count := make([]int8, ne)
 	for k := range nc {
 		for i := range 3 {
@@ -220,7 +227,8 @@ func (q *equilibrator) flux(ctx context.Context, G convex.Potential, v []float64
 		reg = opt.Reg
 	}
 	q.owner = nil
-	if err := q.st.minimise(ctx, e, G, q.grad, q.sigma, reg, opt); err != nil {
+	q.weights(G, reg, q.model)
+	if err := q.st.minimise(ctx, e, G, q.grad, q.sigma, q.model, reg, opt); err != nil {
 		return nil, err
 	}
 	if opt.Newton == 0 {
@@ -268,15 +276,60 @@ func (q *equilibrator) shift(ctx context.Context, G convex.Potential, y *Equilib
 	return e, nil
 }
 
-// gradients sets grad = ∇v and sigma = ∂G(∇v) per cell and returns max|∇v|.
+// gradients sets grad = ∇v and sigma = ∂G(∇v) per cell and returns
+// max|∇v|. For the power potential σ = |∇v|^{α−2}∇v is formed directly,
+// with |∇v| as the square root of the sum of squares where that can
+// neither overflow nor underflow (math.Hypot elsewhere), and the norms and
+// the factors |∇v|^{α−2} are kept for the model weights.
 func (q *equilibrator) gradients(G convex.Potential, v []float64) float64 {
 	q.s.Gradient(v, q.grad)
 	var gmax float64
+	alpha, ok := convex.IsPower(G)
+	q.power = ok
+	if !ok {
+		for k, g := range q.grad {
+			q.sigma[k] = convex.Flux(G, g)
+			gmax = math.Max(gmax, math.Hypot(g[0], g[1]))
+		}
+		return gmax
+	}
+	q.alpha = alpha
+	pw := convex.NewFastPow(alpha - 2)
 	for k, g := range q.grad {
-		q.sigma[k] = convex.Flux(G, g)
-		gmax = math.Max(gmax, math.Hypot(g[0], g[1]))
+		t2 := g[0]*g[0] + g[1]*g[1]
+		t := math.Sqrt(t2)
+		if !(t2 > 1e-290 && t2 < 1e290) {
+			t = math.Hypot(g[0], g[1])
+		}
+		var f float64
+		if t > 0 {
+			f = pw.Of(t)
+		}
+		q.norm[k], q.factor[k] = t, f
+		q.sigma[k] = [2]float64{f * g[0], f * g[1]}
+		gmax = math.Max(gmax, t)
 	}
 	return gmax
+}
+
+// weights sets w to the weight D²G(∇v)⁻¹ of the quadratic model on every
+// cell, with D²G frozen below the radius reg as in convex.Hessian. For the
+// power potential and |∇v| ≥ reg it is the closed form
+// |ξ|^{2−α}(I − (α−2)/(α−1) n⊗n), n = ξ/|ξ|, the inverse of
+// |ξ|^{α−2}(I + (α−2) n⊗n).
+func (q *equilibrator) weights(G convex.Potential, reg float64, w [][3]float64) {
+	c := 0.0
+	if q.power {
+		c = (q.alpha - 2) / (q.alpha - 1)
+	}
+	for k, g := range q.grad {
+		if t := q.norm[k]; q.power && t >= reg && t > 0 && q.factor[k] > 0 && !math.IsInf(q.factor[k], 0) {
+			f, ct := 1/q.factor[k], c/(t*t)
+			w[k] = [3]float64{f * (1 - ct*g[0]*g[0]), -f * ct * g[0] * g[1], f * (1 - ct*g[1]*g[1])}
+			continue
+		}
+		w[k] = inv2(convex.Hessian(G, g, reg))
+	}
 }
 
 // addFields adds to e the RT0 field of the edge fluxes and, for k = 1, the
@@ -445,7 +498,7 @@ type stream struct {
 }
 
 func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
-	ps, err := fem.NewP1(pinnedCopy(s.Mesh))
+	ps, err := s.WithBoundary(pinnedCopy(s.Mesh))
 	if err != nil {
 		return nil, fmt.Errorf("equilibrated flux: stream space: %w", err)
 	}
@@ -522,9 +575,9 @@ func (st *stream) modelGradient(e *Equilibrated, sigma [][2]float64) {
 	}
 }
 
-// minimise runs the quadratic-model step and opt.Newton Newton steps on
-// Φ(y*) = ∫ D_G(∇v, y*) over y* = y0 + R∇ψ.
-func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potential, grad, sigma [][2]float64, reg float64, opt EquilibrateOptions) error {
+// minimise runs the quadratic-model step, with the weights model per cell,
+// and opt.Newton Newton steps on Φ(y*) = ∫ D_G(∇v, y*) over y* = y0 + R∇ψ.
+func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potential, grad, sigma [][2]float64, model [][3]float64, reg float64, opt EquilibrateOptions) error {
 	nc := st.s.Mesh.NumCells()
 	nq := len(st.lams)
 	var phi float64
@@ -534,8 +587,7 @@ func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potent
 			return fmt.Errorf("equilibrated flux: stopped: %w", err)
 		}
 		if step == 0 {
-			for k := range nc {
-				w := inv2(convex.Hessian(G, grad[k], reg))
+			for k, w := range model {
 				for q := range nq {
 					st.hess[k*nq+q] = w
 				}
@@ -746,10 +798,9 @@ func (st *stream) assemble() error {
 	for k := range nc {
 		area := st.s.Area[k]
 		var mean [3]float64
+		constant := true
 		for q := range nq {
-			i := k*nq + q
-			w := 2 * area * r.Weights[q]
-			h := st.hess[i]
+			h := st.hess[k*nq+q]
 			if !(h[0] > 0 && h[2] > 0 && h[0]*h[2] > h[1]*h[1]) || math.IsInf(h[0]+h[2], 0) {
 				return fmt.Errorf("equilibrated flux: the Hessian of G* is not positive definite in cell %d (%v); the potential may not be strictly convex there", k, h)
 			}
@@ -757,9 +808,20 @@ func (st *stream) assemble() error {
 			for j := range 3 {
 				mean[j] += 2 * r.Weights[q] * kq[j]
 			}
-			if st.order == 0 {
-				continue
-			}
+			constant = constant && h == st.hess[k*nq]
+		}
+		st.coef[k] = mean
+		if st.order == 0 {
+			continue
+		}
+		if constant {
+			st.addLocal(k, mean)
+			continue
+		}
+		for q := range nq {
+			w := 2 * area * r.Weights[q]
+			h := st.hess[k*nq+q]
+			kq := [3]float64{h[2], -h[1], h[0]}
 			nb := st.gradBasis(k, st.lams[q], &gb)
 			for a := range nb {
 				if st.dof[k][a] < 0 {
@@ -774,12 +836,46 @@ func (st *stream) assemble() error {
 				}
 			}
 		}
-		st.coef[k] = mean
 	}
 	if err := st.ps.Stiffness(st.coef, st.pa); err != nil {
 		return fmt.Errorf("equilibrated flux: %w", err)
 	}
 	return nil
+}
+
+// edgeMidpoints are the barycentric coordinates of the edge midpoints, the
+// nodes of the three-point rule with weights |T|/3, exact for quadratics
+// (common practice, no source).
+var edgeMidpoints = [3][3]float64{{0, 0.5, 0.5}, {0.5, 0, 0.5}, {0.5, 0.5, 0}}
+
+// addLocal adds to the k = 1 stream matrix the element matrix
+// ∫_T ∇φ_aᵀ K ∇φ_b of cell k for a weight K = (xx, xy, yy) constant on the
+// cell. The gradients of the quadratic stream basis are linear, so the
+// edge-midpoint rule integrates it exactly with half the points of the
+// general rule.
+func (st *stream) addLocal(k int, kq [3]float64) {
+	var loc [6][6]float64
+	var gb [6][2]float64
+	for _, lam := range edgeMidpoints {
+		st.gradBasis(k, lam, &gb)
+		for a := range 6 {
+			cx := kq[0]*gb[a][0] + kq[1]*gb[a][1]
+			cy := kq[1]*gb[a][0] + kq[2]*gb[a][1]
+			for c := a; c < 6; c++ {
+				loc[a][c] += cx*gb[c][0] + cy*gb[c][1]
+			}
+		}
+	}
+	w := st.s.Area[k] / 3
+	pos := &st.pos[k]
+	val := st.a.Val
+	for a := range 6 {
+		for c := range 6 {
+			if pc := pos[6*a+c]; pc >= 0 {
+				val[pc] += w * loc[min(a, c)][max(a, c)]
+			}
+		}
+	}
 }
 
 // rhs sets b to the right side −∫ ∇φ_a · Rᵀg of the stream system.

@@ -1,10 +1,6 @@
 package estimate
 
-import (
-	"slices"
-
-	"gapbook/fem"
-)
+import "gapbook/fem"
 
 // addBubbles adds to the quadratic form co of a cell the RT1 fields with
 // zero normal trace b_i = λ_i(λ_j R∇λ_l − λ_l R∇λ_j), (i, j, l) cyclic,
@@ -30,8 +26,9 @@ func addBubbles(co *[6][2]float64, p *[3]float64, g *[3][2]float64) {
 // cellMatrix returns a zero CSR matrix of n rows whose pattern couples the
 // free local dofs of every cell, and the positions of the local entries.
 // Each row is gathered from the cells around its dof (a dof-to-cell
-// incidence built by counting) with a stamp array against duplicates, so
-// the only sorting is of the short rows.
+// incidence built by counting): a first pass counts its distinct columns,
+// a second fills and sorts the short row by insertion and records where
+// each column went, so the positions of the local entries need no search.
 func cellMatrix(n int, dof [][6]int32) (*fem.CSR, [][36]int32) {
 	start := make([]int32, n+1)
 	for _, d := range dof {
@@ -54,42 +51,71 @@ func cellMatrix(n int, dof [][6]int32) (*fem.CSR, [][36]int32) {
 			}
 		}
 	}
-	stamp := make([]int32, n)
-	for i := range stamp {
-		stamp[i] = -1
+	// where[b] is the position of column b in the latest row holding it;
+	// rows are filled in order, so where[b] < lo means "not in this row".
+	where := make([]int32, n)
+	for i := range where {
+		where[i] = -1
 	}
-	a := &fem.CSR{Rows: n, Cols: n, RowPtr: make([]int32, n+1), Col: make([]int32, 0, 12*n)}
+	a := &fem.CSR{Rows: n, Cols: n, RowPtr: make([]int32, n+1)}
 	for i := range n {
-		first := len(a.Col)
+		c := int32(0)
 		for _, k := range inc[start[i]:start[i+1]] {
 			for _, b := range dof[k] {
-				if b >= 0 && stamp[b] != int32(i) {
-					stamp[b] = int32(i)
-					a.Col = append(a.Col, b)
+				if b >= 0 && where[b] != int32(i) {
+					where[b] = int32(i)
+					c++
 				}
 			}
 		}
-		slices.Sort(a.Col[first:])
-		a.RowPtr[i+1] = int32(len(a.Col))
+		a.RowPtr[i+1] = a.RowPtr[i] + c
 	}
-	a.Val = make([]float64, len(a.Col))
+	for i := range where {
+		where[i] = -1
+	}
+	a.Col = make([]int32, a.RowPtr[n])
 	pos := make([][36]int32, len(dof))
-	for k, d := range dof {
-		for i, x := range d {
-			for j, y := range d {
-				pos[k][6*i+j] = -1
-				if x < 0 || y < 0 {
+	for k := range pos {
+		for j := range pos[k] {
+			pos[k][j] = -1
+		}
+	}
+	for i := range n {
+		lo, end := a.RowPtr[i], a.RowPtr[i]
+		cs := inc[start[i]:start[i+1]]
+		for _, k := range cs {
+			for _, b := range dof[k] {
+				if b >= 0 && where[b] < lo {
+					where[b] = lo
+					a.Col[end] = b
+					end++
+				}
+			}
+		}
+		row := a.Col[lo:end]
+		for p := 1; p < len(row); p++ {
+			for q := p; q > 0 && row[q] < row[q-1]; q-- {
+				row[q], row[q-1] = row[q-1], row[q]
+			}
+		}
+		for p, b := range row {
+			where[b] = lo + int32(p)
+		}
+		for _, k := range cs {
+			d := &dof[k]
+			for x := range 6 {
+				if d[x] != int32(i) {
 					continue
 				}
-				for p := a.RowPtr[x]; p < a.RowPtr[x+1]; p++ {
-					if a.Col[p] == y {
-						pos[k][6*i+j] = p
-						break
+				for y, b := range d {
+					if b >= 0 {
+						pos[k][6*x+y] = where[b]
 					}
 				}
 			}
 		}
 	}
+	a.Val = make([]float64, len(a.Col))
 	return a, pos
 }
 

@@ -45,6 +45,23 @@ func NewP1(m *mesh.Mesh) (*P1, error) {
 	return s, nil
 }
 
+// WithBoundary returns the P1 space on m, a copy of s.Mesh that shares its
+// Nodes and Cells slices but marks other boundary nodes (or carries another
+// hierarchy): the free numbering and the pattern are new, the cell geometry
+// is that of s. When m does not share the nodes and cells of s.Mesh it is
+// NewP1(m).
+func (s *P1) WithBoundary(m *mesh.Mesh) (*P1, error) {
+	o := s.Mesh
+	if m == nil || o == nil || m.Dim != o.Dim || len(m.Cells) != len(o.Cells) || len(m.Nodes) != len(o.Nodes) ||
+		len(m.Cells) == 0 || &m.Cells[0] != &o.Cells[0] || &m.Nodes[0] != &o.Nodes[0] {
+		return NewP1(m)
+	}
+	t := &P1{Mesh: m, Area: s.Area, Grad: s.Grad}
+	t.Free, t.FreeNodes = freeMap(m)
+	t.pattern, t.pos = cellPattern(m.Cells, m.Dim+1, m.NumNodes(), t.Free, t.FreeNodes)
+	return t, nil
+}
+
 // geometry returns the cell sizes and the gradients of the barycentric
 // coordinates of every cell.
 func geometry(m *mesh.Mesh) ([]float64, [][3][2]float64, error) {
@@ -90,9 +107,12 @@ func freeMap(m *mesh.Mesh) (free, nodes []int32) {
 
 // cellPattern builds the pattern of a space with nv degrees of freedom per
 // cell (cells[k][:nv], ndof in all, rows in free numbering) and, for each
-// cell, the positions of its local entries.
+// cell, the positions of its local entries. Rows are gathered from a
+// dof → cells incidence built by counting: one pass counts the distinct
+// columns of each row (a stamp per column), the second fills them, sorts
+// the short row by insertion and records where each column went, so the
+// local positions need no search and nothing grows by appending.
 func cellPattern(cells [][3]int32, nv, nn int, free, freeNodes []int32) (*CSR, [][9]int32) {
-	// Node → cells incidence, in CSR form, to collect neighbours in O(n).
 	start := make([]int32, nn+1)
 	for _, c := range cells {
 		for a := range nv {
@@ -110,26 +130,68 @@ func cellPattern(cells [][3]int32, nv, nn int, free, freeNodes []int32) (*CSR, [
 			next[c[a]]++
 		}
 	}
-	pat := patternFromRows(len(freeNodes), len(freeNodes), func(i int, buf []int32) []int32 {
-		node := freeNodes[i]
+	nr := len(freeNodes)
+	pat := &CSR{Rows: nr, Cols: nr, RowPtr: make([]int32, nr+1)}
+	// where[f] is the position of column f in the latest row that holds
+	// it; rows are filled in order, so where[f] < lo means "not yet in
+	// the row starting at lo".
+	where := make([]int32, nr)
+	for i := range where {
+		where[i] = -1
+	}
+	for i, node := range freeNodes {
+		n := int32(0)
 		for _, k := range inc[start[node]:start[node+1]] {
 			for _, v := range cells[k][:nv] {
-				if f := free[v]; f >= 0 {
-					buf = append(buf, f)
+				if f := free[v]; f >= 0 && where[f] != int32(i) {
+					where[f] = int32(i)
+					n++
 				}
 			}
 		}
-		return buf
-	})
-	// Matrices get their own values from NewMatrix; the pattern keeps none.
-	pat.Val = nil
+		pat.RowPtr[i+1] = pat.RowPtr[i] + n
+	}
+	for i := range where {
+		where[i] = -1
+	}
+	pat.Col = make([]int32, pat.RowPtr[nr])
 	pos := make([][9]int32, len(cells))
-	for k, c := range cells {
-		for a := range 3 {
-			for b := range 3 {
-				pos[k][3*a+b] = -1
-				if a < nv && b < nv && free[c[a]] >= 0 && free[c[b]] >= 0 {
-					pos[k][3*a+b] = int32(pat.Find(int(free[c[a]]), int(free[c[b]])))
+	for k := range pos {
+		for j := range pos[k] {
+			pos[k][j] = -1
+		}
+	}
+	for i, node := range freeNodes {
+		lo, end := pat.RowPtr[i], pat.RowPtr[i]
+		cs := inc[start[node]:start[node+1]]
+		for _, k := range cs {
+			for _, v := range cells[k][:nv] {
+				if f := free[v]; f >= 0 && where[f] < lo {
+					where[f] = lo
+					pat.Col[end] = f
+					end++
+				}
+			}
+		}
+		row := pat.Col[lo:end]
+		for a := 1; a < len(row); a++ {
+			for b := a; b > 0 && row[b] < row[b-1]; b-- {
+				row[b], row[b-1] = row[b-1], row[b]
+			}
+		}
+		for p, f := range row {
+			where[f] = lo + int32(p)
+		}
+		for _, k := range cs {
+			c := &cells[k]
+			for a := range nv {
+				if c[a] != node {
+					continue
+				}
+				for b := range nv {
+					if f := free[c[b]]; f >= 0 {
+						pos[k][3*a+b] = where[f]
+					}
 				}
 			}
 		}

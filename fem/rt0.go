@@ -3,6 +3,7 @@ package fem
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"gapbook/mesh"
 )
@@ -18,6 +19,7 @@ type edgeTopology struct {
 	// OnBoundary marks the edges that belong to one cell only.
 	OnBoundary []bool
 	Length     []float64
+	area       []float64 // cell areas, from the orientation determinants
 }
 
 func newEdgeTopology(m *mesh.Mesh) (*edgeTopology, error) {
@@ -29,6 +31,7 @@ func newEdgeTopology(m *mesh.Mesh) (*edgeTopology, error) {
 	t.Sign = make([][3]int8, m.NumCells())
 	t.Length = make([]float64, len(t.Edges))
 	count := make([]int8, len(t.Edges))
+	t.area = make([]float64, m.NumCells())
 	for e, ab := range t.Edges {
 		p, q := m.Nodes[ab[0]], m.Nodes[ab[1]]
 		t.Length[e] = math.Hypot(q.X-p.X, q.Y-p.Y)
@@ -39,6 +42,7 @@ func newEdgeTopology(m *mesh.Mesh) (*edgeTopology, error) {
 		if !(math.Abs(det) > 0) {
 			return nil, fmt.Errorf("cell %d (nodes %d, %d, %d) is degenerate", k, c[0], c[1], c[2])
 		}
+		t.area[k] = math.Abs(det) / 2
 		for i := range 3 {
 			// The global normal of edge (a, b), a < b, is (b − a) turned
 			// clockwise; it points out of a counter-clockwise cell that runs
@@ -81,28 +85,35 @@ type RT0 struct {
 	edgeTopology
 	Area []float64
 
+	// The pattern of RT0 matrices is built on first use: callers that need
+	// only the edges and the basis (flux reconstructions) never pay for it.
+	once    sync.Once
 	pattern *CSR
 	pos     [][9]int32
 }
 
-// NewRT0 numbers the edges of m and prepares the RT0 basis and the
-// sparsity pattern of RT0 matrices (edges sharing a cell).
+// NewRT0 numbers the edges of m and prepares the RT0 basis; the sparsity
+// pattern of RT0 matrices (edges sharing a cell) follows on the first
+// NewMatrix or Mass.
 func NewRT0(m *mesh.Mesh) (*RT0, error) {
 	t, err := newEdgeTopology(m)
 	if err != nil {
 		return nil, fmt.Errorf("rt0 space: %w", err)
 	}
-	area, _, err := geometry(m)
-	if err != nil {
-		return nil, fmt.Errorf("rt0 space: %w", err)
-	}
-	r := &RT0{Mesh: m, edgeTopology: *t, Area: area}
-	all := make([]int32, len(t.Edges))
-	for i := range all {
-		all[i] = int32(i)
-	}
-	r.pattern, r.pos = cellPattern(t.CellEdges, 3, len(t.Edges), all, all)
-	return r, nil
+	return &RT0{Mesh: m, edgeTopology: *t, Area: t.area}, nil
+}
+
+// matrixPattern returns the pattern of RT0 matrices and the positions of
+// the local entries of every cell, building them once.
+func (r *RT0) matrixPattern() (*CSR, [][9]int32) {
+	r.once.Do(func() {
+		all := make([]int32, len(r.Edges))
+		for i := range all {
+			all[i] = int32(i)
+		}
+		r.pattern, r.pos = cellPattern(r.CellEdges, 3, len(r.Edges), all, all)
+	})
+	return r.pattern, r.pos
 }
 
 // NumEdges returns the number of edges, the dimension of the space.
@@ -154,7 +165,7 @@ func (r *RT0) Interpolate(f func(x, y float64) (fx, fy float64), degree int, dst
 
 // NewMatrix returns a zero edge-by-edge matrix with the RT0 pattern.
 func (r *RT0) NewMatrix() *CSR {
-	p := r.pattern
+	p, _ := r.matrixPattern()
 	return &CSR{Rows: p.Rows, Cols: p.Cols, RowPtr: p.RowPtr, Col: p.Col, Val: make([]float64, len(p.Col))}
 }
 
@@ -164,8 +175,9 @@ func (r *RT0) NewMatrix() *CSR {
 // current flux). The cell integrals of the quadratic integrand are exact by
 // the edge-midpoint rule.
 func (r *RT0) Mass(weight [][3]float64, a *CSR) error {
-	if a == nil || len(a.Val) != len(r.pattern.Col) {
-		return fmt.Errorf("rt0 mass: the matrix must come from NewMatrix of this space (%d entries)", len(r.pattern.Col))
+	pat, pos := r.matrixPattern()
+	if a == nil || len(a.Val) != len(pat.Col) {
+		return fmt.Errorf("rt0 mass: the matrix must come from NewMatrix of this space (%d entries)", len(pat.Col))
 	}
 	if weight != nil && len(weight) != len(r.Area) {
 		return fmt.Errorf("rt0 mass: %d weights for %d cells", len(weight), len(r.Area))
@@ -194,7 +206,7 @@ func (r *RT0) Mass(weight [][3]float64, a *CSR) error {
 					vx, vy := m[0]-pts[j].X, m[1]-pts[j].Y
 					s += ux*(w[0]*vx+w[1]*vy) + uy*(w[1]*vx+w[2]*vy)
 				}
-				a.Val[r.pos[k][3*i+j]] += float64(r.Sign[k][i]*r.Sign[k][j]) * scale * s
+				a.Val[pos[k][3*i+j]] += float64(r.Sign[k][i]*r.Sign[k][j]) * scale * s
 			}
 		}
 	}

@@ -18,21 +18,35 @@ type CSR struct {
 // NNZ returns the number of stored entries.
 func (a *CSR) NNZ() int { return len(a.Col) }
 
-// patternFromSets builds a CSR pattern with zero values from per-row column
-// lists (unsorted, possibly with repeats).
+// patternFromRows builds a CSR pattern with zero values from per-row
+// column lists (unsorted, possibly with repeats). Repeats are dropped by a
+// stamp per column before the short remaining row is sorted.
 func patternFromRows(rows, cols int, rowCols func(i int, buf []int32) []int32) *CSR {
-	a := &CSR{Rows: rows, Cols: cols, RowPtr: make([]int32, rows+1)}
+	a := &CSR{Rows: rows, Cols: cols, RowPtr: make([]int32, rows+1), Col: make([]int32, 0, 8*rows)}
+	stamp := make([]int32, cols)
+	for i := range stamp {
+		stamp[i] = -1
+	}
 	var buf []int32
 	for i := range rows {
 		buf = rowCols(i, buf[:0])
-		slices.Sort(buf)
-		buf = slices.Compact(buf)
-		a.Col = append(a.Col, buf...)
+		first := len(a.Col)
+		for _, j := range buf {
+			if stamp[j] != int32(i) {
+				stamp[j] = int32(i)
+				a.Col = append(a.Col, j)
+			}
+		}
+		row := a.Col[first:]
+		for p := 1; p < len(row); p++ {
+			for q := p; q > 0 && row[q] < row[q-1]; q-- {
+				row[q], row[q-1] = row[q-1], row[q]
+			}
+		}
 		a.RowPtr[i+1] = int32(len(a.Col))
 	}
-	// append leaves up to a quarter of the capacity unused on large
-	// patterns; patterns live as long as their space.
-	a.Col = slices.Clip(a.Col)
+	// Patterns live as long as their space: do not keep much unused
+	// capacity.
 	if cap(a.Col) > len(a.Col)+len(a.Col)/16 {
 		a.Col = slices.Clone(a.Col)
 	}
