@@ -71,14 +71,22 @@ type ParabolicOptions struct {
 	// Kind and InTime choose the flux reconstruction.
 	Kind   FluxKind
 	InTime TimeFlux
-	// Equilibrate configures EquilibratedFlux (Order 1 for RT1).
+	// Equilibrate configures EquilibratedFlux (Order 1 for RT1). Its
+	// Degree defaults to LoadDegree when Split is 1: f is then projected
+	// with the samples the residual terms use.
 	Equilibrate EquilibrateOptions
 	// Degree is the space quadrature degree of the step integrals
 	// (default 6: exact for the gap of an RT1 flux when α = 2), on Split
 	// sub-cells per cell edge (default 1). Where y* passes through 0 the
 	// conjugate |y*|^{α'} is not smooth for α > 2: split there.
 	Degree, Split int
-	// TimePoints is the number of Gauss points in time per step (default 3).
+	// LoadDegree is the space quadrature degree of the residual terms
+	// (default 5), the terms that sample f.
+	LoadDegree int
+	// TimePoints is the number of Gauss points in time per step for the
+	// gap and the norms of ∇v (default 3). The residual terms use Simpson's
+	// rule (degree 3), which samples f at the step ends shared with the
+	// neighbouring steps and at the midpoint.
 	TimePoints int
 	// InitialSplit and InitialDegree set the composite rule of ½‖e(0)‖²
 	// (defaults 2 and 8): the rule on InitialSplit/2 sub-cells per edge is
@@ -137,17 +145,27 @@ type Parabolic struct {
 	tx, tw     []float64
 	rbuf, wbuf []float64
 	// per point of the space rule: barycentric coordinates and weight
-	// (times the reference measure); per time point: sums, times, weights,
-	// ∇v, its gap data, cell gap and cell mean of r
-	lam        [][3]float64
-	pw         []float64
-	tsums      []slabSums
-	tnorms     []float64
-	tt, twt    []float64
-	tg         [][2]float64
-	tgc        []gapCell
-	tdk        []float64
-	tmk        []float64
+	// (times the reference measure); per Gauss time point: sums, weights,
+	// ∇v, its gap data and the cell gap; per Simpson time point: sums
+	lam [][3]float64
+	pw  []float64
+	// the same for the rule of the residual terms
+	rrule  fem.Rule
+	rlam   [][3]float64
+	rpw    []float64
+	tsums  []slabSums
+	tnorms []float64
+	twt    []float64
+	tg     [][2]float64
+	tgc    []gapCell
+	tdk    []float64
+	rsums  [3]slabSums
+	// f at the space rule's points at two times (loadCache); shareLoad
+	// says the flux projection uses the same rule and can fill them
+	loads     [2]loadCache
+	shareLoad bool
+	// stepT0 is the start of the step being added
+	stepT0     float64
 	exRule     fem.Rule
 	exTx, exTw []float64
 	// accumulators
@@ -199,6 +217,9 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 	if o.TimePoints <= 0 {
 		o.TimePoints = 3
 	}
+	if o.LoadDegree <= 0 {
+		o.LoadDegree = 5
+	}
 	if o.Split <= 0 {
 		o.Split = 1
 	}
@@ -215,6 +236,12 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 		return nil, fmt.Errorf("parabolic bounds: unknown time form %d", o.InTime)
 	}
 	b := &Parabolic{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1)}
+	if o.Kind == EquilibratedFlux && o.Split == 1 && (o.Equilibrate.Degree == 0 || o.Equilibrate.Degree == o.LoadDegree) {
+		// The projection of f onto P_k then samples f where the slab does,
+		// and its samples at t_n serve both steps next to t_n.
+		b.o.Equilibrate.Degree = o.LoadDegree
+		b.shareLoad = true
+	}
 	b.mod = p.G.Modulus()
 	b.gp = newGapper(p.G)
 	if o.Modulus != nil {
@@ -245,15 +272,13 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 	}
 	b.rule = CompositeRule(s.Mesh.Dim, o.Degree, o.Split)
 	b.tx, b.tw = fem.Gauss(o.TimePoints, 0, 1)
-	np, nt := b.rule.Len(), len(b.tx)
-	b.rbuf, b.wbuf = make([]float64, nt*np), make([]float64, np)
-	b.lam, b.pw = make([][3]float64, np), make([]float64, np)
-	for i, pt := range b.rule.Points {
-		lam, scale := cellPoint(s.Mesh.Dim, pt)
-		b.lam[i], b.pw[i] = lam, b.rule.Weights[i]*scale
-	}
+	nt := len(b.tx)
+	b.lam, b.pw = refPoints(s.Mesh.Dim, b.rule)
+	b.rrule = CompositeRule(s.Mesh.Dim, o.LoadDegree, o.Split)
+	b.rlam, b.rpw = refPoints(s.Mesh.Dim, b.rrule)
+	b.rbuf, b.wbuf = make([]float64, len(loadTimes)*b.rrule.Len()), make([]float64, b.rrule.Len())
 	b.tsums, b.tnorms = make([]slabSums, nt), make([]float64, nt*len(b.nb.bounds))
-	b.tt, b.twt, b.tdk, b.tmk = make([]float64, nt), make([]float64, nt), make([]float64, nt), make([]float64, nt)
+	b.twt, b.tdk = make([]float64, nt), make([]float64, nt)
 	b.tg, b.tgc = make([][2]float64, nt), make([]gapCell, nt)
 	if e := o.Exact; e != nil {
 		if e.U == nil || e.Grad == nil {
@@ -316,6 +341,17 @@ func CompositeRule(dim, degree, split int) fem.Rule {
 	return r
 }
 
+// refPoints returns the barycentric coordinates of the points of r and
+// their weights times the reference measure (weights that sum to 1).
+func refPoints(dim int, r fem.Rule) (lam [][3]float64, w []float64) {
+	lam, w = make([][3]float64, r.Len()), make([]float64, r.Len())
+	for i, pt := range r.Points {
+		l, scale := cellPoint(dim, pt)
+		lam[i], w[i] = l, r.Weights[i]*scale
+	}
+	return lam, w
+}
+
 // powAbs returns |x|^q with the common q = 2, 3/2 (α = 3) and 3 (α = 3/2)
 // without a call to Pow.
 func powAbs(x, q float64) float64 {
@@ -352,6 +388,7 @@ func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) 
 		return fmt.Errorf("parabolic bounds: step starts at %g but the previous one ended at %g", t0, b.t1)
 	}
 	tau := t1 - t0
+	b.stepT0 = t0
 	for i := range b.d {
 		b.d[i] = (v1[i] - v0[i]) / tau
 	}
@@ -385,11 +422,13 @@ func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) 
 	return nil
 }
 
-// source is the load f(t) − ∂_t v of the current step.
-func (b *Parabolic) source(t float64) Source {
+// source is the load f(t) − ∂_t v of the current step. It reads f from a
+// load slot that holds time t, or records f into rec (nil: none).
+func (b *Parabolic) source(t float64, rec *loadCache) Source {
 	m := b.s.Mesh
 	nv := m.Dim + 1
 	f := b.p.F
+	have := b.loadAt(t)
 	return func(k int, lam [3]float64) float64 {
 		c := m.Cells[k]
 		var dt float64
@@ -399,8 +438,19 @@ func (b *Parabolic) source(t float64) Source {
 		if f == nil {
 			return -dt
 		}
+		if have != nil {
+			if i := b.index(have, k, lam); i >= 0 {
+				return have.v[i] - dt
+			}
+		}
 		x, y := eqPoint(m, k, lam)
-		return f(x, y, t) - dt
+		fv := f(x, y, t)
+		if rec != nil {
+			if i := b.index(rec, k, lam); i >= 0 {
+				rec.v[i] = fv
+			}
+		}
+		return fv - dt
 	}
 }
 
@@ -411,8 +461,13 @@ func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Fl
 	}
 	var e *Equilibrated
 	var err error
+	if have := b.loadAt(t); have != nil {
+		have.next, have.broken = 0, false
+	}
+	rec := b.recordLoad(t)
+	defer rec.finishRecord()
 	if b.s.Mesh.Dim == 1 {
-		e, err = Equilibrate(ctx, b.s, b.p.G, v, b.source(t), b.o.Equilibrate)
+		e, err = Equilibrate(ctx, b.s, b.p.G, v, b.source(t, rec), b.o.Equilibrate)
 	} else {
 		if b.eq == nil {
 			if err := b.o.Equilibrate.defaults(); err != nil {
@@ -422,7 +477,7 @@ func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Fl
 				return nil, fmt.Errorf("parabolic bounds: %w", err)
 			}
 		}
-		e, err = b.eq.flux(ctx, b.p.G, v, b.source(t), b.o.Equilibrate)
+		e, err = b.eq.flux(ctx, b.p.G, v, b.source(t, rec), b.o.Equilibrate)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t, err)
@@ -449,7 +504,10 @@ func (b *Parabolic) reconstructStart(ctx context.Context, v0 []float64, t0 float
 		}
 		return s
 	}
-	e, err := b.eq.shift(ctx, b.p.G, b.last, v0, df, b.source(t0), b.o.Equilibrate)
+	if have := b.loadAt(t0); have != nil {
+		have.next, have.broken = 0, false
+	}
+	e, err := b.eq.shift(ctx, b.p.G, b.last, v0, df, b.source(t0, nil), b.o.Equilibrate)
 	if err != nil {
 		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t0, err)
 	}
@@ -462,19 +520,23 @@ type slabSums struct {
 	gap, rho2, mean2, oscA, resA, meanA, bregman float64
 }
 
-// slab integrates one step by the Gauss rule in time and the space rule:
-// the gap, the residual norms, the Bregman change of ∇v (time indicator).
-// The loops run cell by cell and point by point with the time points
-// innermost, so that what does not depend on t is computed once per cell
-// (∇v(t) and its gap data, the vertices, ∂G(∇v_n)) or once per point (y*
-// at both ends, whose time interpolation is then two products, ∂_t v, x).
+// slab integrates one step: the gap, the Bregman change of ∇v (time
+// indicator) and the norms of ∇v by the Gauss rule in time, the residual
+// terms by Simpson's rule (loadTimes), whose samples of f at the step ends
+// come from the load slots when the flux projection or the previous step
+// left them there; the space rules are b.rule (gap) and b.rrule
+// (residual terms). The loops run cell by cell and
+// point by point with the time points innermost, so that what does not
+// depend on t is computed once per cell (∇v(t) and its gap data, the
+// vertices, ∂G(∇v_n)) or once per point (y* at both ends, whose time
+// interpolation is then two products, ∂_t v, x).
 func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 	s := b.s
 	m := s.Mesh
 	nv := m.Dim + 1
 	G, q, cf := b.p.G, b.conj, b.o.Friedrichs.Value
 	part := StepPart{T0: t0, T1: t0 + tau}
-	nt, np, nbd := len(b.tx), b.rule.Len(), len(b.nb.bounds)
+	nt, np, nr, nbd := len(b.tx), b.rule.Len(), b.rrule.Len(), len(b.nb.bounds)
 	sums, tn := b.tsums, b.tnorms
 	clear(sums)
 	clear(tn)
@@ -482,11 +544,21 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 	for k := range b.samples {
 		b.samples[k] = b.samples[k][:0]
 	}
-	ts, wts := b.tt, b.twt
-	for iq, sq := range b.tx {
-		ts[iq], wts[iq] = t0+sq*tau, tau*b.tw[iq]
+	wts := b.twt
+	for iq := range b.tx {
+		wts[iq] = tau * b.tw[iq]
 	}
-	gs, gc, dk, mk := b.tg, b.tgc, b.tdk, b.tmk
+	t1, tm := t0+tau, t0+loadTimes[1]*tau
+	// f at the step's start and end: from the slots, or evaluated here and
+	// the end kept for the next step.
+	f0, f1 := b.loadAt(t0), b.loadAt(t1)
+	var keep *loadCache
+	if b.p.F != nil && f1 == nil {
+		keep = b.freeLoad(t0)
+		keep.t, keep.ok = t1, false
+	}
+	gs, gc, dk := b.tg, b.tgc, b.tdk
+	var mk [3]float64
 	for k, c := range m.Cells {
 		area := s.Area[k]
 		var px, py, dn [3]float64
@@ -499,15 +571,35 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 		for iq, sq := range b.tx {
 			gs[iq] = [2]float64{(1-sq)*b.g0[k][0] + sq*b.g1[k][0], (1-sq)*b.g0[k][1] + sq*b.g1[k][1]}
 			gc[iq] = b.gp.cell(gs[iq])
-			dk[iq], mk[iq] = 0, 0
+			dk[iq] = 0
 		}
-		var wk float64
 		for i := range np {
-			lam, w := b.lam[i], b.pw[i]*area
-			y1, d1 := yb.At(k, lam)
-			y0, d0 := y1, d1
+			lam := b.lam[i]
+			w := b.pw[i] * area
+			y1, _ := yb.At(k, lam)
+			y0 := y1
 			if ya != yb {
-				y0, d0 = ya.At(k, lam)
+				y0, _ = ya.At(k, lam)
+			}
+			for iq, sq := range b.tx {
+				y := y1
+				if ya != yb {
+					y = [2]float64{(1-sq)*y0[0] + sq*y1[0], (1-sq)*y0[1] + sq*y1[1]}
+				}
+				dk[iq] += w * b.gp.at(&gc[iq], y, math.Sqrt(y[0]*y[0]+y[1]*y[1]))
+				if b.watchY {
+					b.samples[k] = append(b.samples[k], y)
+				}
+			}
+		}
+		mk = [3]float64{}
+		var wk float64
+		for i := range nr {
+			lam, w := b.rlam[i], b.rpw[i]*area
+			_, d1 := yb.At(k, lam)
+			d0 := d1
+			if ya != yb {
+				_, d0 = ya.At(k, lam)
 			}
 			var dv, x, yy float64
 			for a := range nv {
@@ -515,53 +607,56 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 				x += lam[a] * px[a]
 				yy += lam[a] * py[a]
 			}
-			for iq, sq := range b.tx {
-				y, div := y1, d1
-				if ya != yb {
-					y = [2]float64{(1-sq)*y0[0] + sq*y1[0], (1-sq)*y0[1] + sq*y1[1]}
-					div = (1-sq)*d0 + sq*d1
+			r0, rm, r1 := d0-dv, (d0+d1)/2-dv, d1-dv
+			if b.p.F != nil {
+				r0 += b.f(f0, k, i, x, yy, t0)
+				rm += b.p.F(x, yy, tm)
+				fe := b.f(f1, k, i, x, yy, t1)
+				if keep != nil {
+					keep.v[k*nr+i] = fe
 				}
-				r := div - dv
-				if b.p.F != nil {
-					r += b.p.F(x, yy, ts[iq])
-				}
-				dk[iq] += w * b.gp.at(&gc[iq], y, math.Sqrt(y[0]*y[0]+y[1]*y[1]))
-				if b.watchY {
-					b.samples[k] = append(b.samples[k], y)
-				}
-				b.rbuf[iq*np+i] = r
-				mk[iq] += w * r
+				r1 += fe
 			}
+			b.rbuf[i], b.rbuf[nr+i], b.rbuf[2*nr+i] = r0, rm, r1
+			mk[0] += w * r0
+			mk[1] += w * rm
+			mk[2] += w * r1
 			b.wbuf[i] = w
 			wk += w
 		}
 		for iq := range nt {
 			wt, g := wts[iq], gs[iq]
-			mq := mk[iq] / wk
-			var r2, ra, oa float64
-			for i, r := range b.rbuf[iq*np : (iq+1)*np] {
-				r2 += b.wbuf[i] * r * r
-				ra += b.wbuf[i] * powAbs(r, q)
-				oa += b.wbuf[i] * powAbs(r-mq, q)
-			}
 			sm := &sums[iq]
 			sm.gap += dk[iq]
-			sm.rho2 += r2
-			sm.mean2 += area * mq * mq
-			sm.oscA += b.cpConj[k] * oa
-			sm.resA += ra
-			sm.meanA += area * powAbs(mq, q)
 			b.cells[k] += wt * dk[iq]
 			b.cellGap[k] += wt * dk[iq]
 			if b.watchG {
 				b.samples[k] = append(b.samples[k], g)
 			}
-			b.oscCell[k] += wt * b.cpConj[k] * oa
 			sm.bregman += wt * area * b.gp.at(&gc[iq], fl, flAbs)
 			for i, bd := range b.nb.bounds {
 				tn[i*nt+iq] += area * math.Pow(bd.Weight(g), b.alpha)
 			}
 		}
+		for ir := range loadTimes {
+			mq := mk[ir] / wk
+			var r2, ra, oa float64
+			for i, r := range b.rbuf[ir*nr : (ir+1)*nr] {
+				r2 += b.wbuf[i] * r * r
+				ra += b.wbuf[i] * powAbs(r, q)
+				oa += b.wbuf[i] * powAbs(r-mq, q)
+			}
+			rs := &b.rsums[ir]
+			rs.rho2 += r2
+			rs.mean2 += area * mq * mq
+			rs.oscA += b.cpConj[k] * oa
+			rs.resA += ra
+			rs.meanA += area * powAbs(mq, q)
+			b.oscCell[k] += tau * loadWeights[ir] * b.cpConj[k] * oa
+		}
+	}
+	if keep != nil {
+		keep.ok = true
 	}
 	var slabRho, slabGap, slabOsc, slabMean, bregman float64
 	for iq := range nt {
@@ -569,15 +664,19 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 		for i := range nbd {
 			b.norms[i] += wt * tn[i*nt+iq]
 		}
-		rosc := math.Pow(sm.oscA, 1/q)
-		rq := math.Min(cf*math.Pow(sm.resA, 1/q), rosc+cf*math.Pow(sm.meanA, 1/q))
 		slabGap += wt * sm.gap
-		slabRho += wt * math.Sqrt(sm.rho2)
-		slabMean += wt * math.Sqrt(sm.mean2)
-		slabOsc += wt * sm.oscA
-		b.rQ += wt * math.Pow(rq, q)
 		bregman += sm.bregman
 	}
+	for ir := range loadTimes {
+		wt, rs := tau*loadWeights[ir], b.rsums[ir]
+		rosc := math.Pow(rs.oscA, 1/q)
+		rq := math.Min(cf*math.Pow(rs.resA, 1/q), rosc+cf*math.Pow(rs.meanA, 1/q))
+		slabRho += wt * math.Sqrt(rs.rho2)
+		slabMean += wt * math.Sqrt(rs.mean2)
+		slabOsc += wt * rs.oscA
+		b.rQ += wt * math.Pow(rq, q)
+	}
+	b.rsums = [3]slabSums{}
 	slabGap += b.safeguardGap(tau, ya, yb)
 	b.gap += slabGap
 	b.pSum += slabMean
@@ -861,7 +960,7 @@ func (b *Parabolic) Bounds() (*ParabolicResult, error) {
 	}
 	r.Label = label
 	r.Assumptions = []string{
-		"space integrals by a rule of degree " + strconv.Itoa(b.o.Degree) + " on " + strconv.Itoa(b.o.Split) + " sub-cells per edge, " + strconv.Itoa(b.o.TimePoints) + " Gauss points in time per step; the gap of cells where y* or ∇v comes near zero refined adaptively in space and time, with its error estimate added",
+		"space integrals by a rule of degree " + strconv.Itoa(b.o.Degree) + " (gap) and " + strconv.Itoa(b.o.LoadDegree) + " (residual terms) on " + strconv.Itoa(b.o.Split) + " sub-cells per edge, " + strconv.Itoa(b.o.TimePoints) + " Gauss points in time per step for the gap, Simpson's rule (degree 3) in time for the residual terms; the gap of cells where y* or ∇v comes near zero refined adaptively in space and time, with its error estimate added",
 		"½‖e(0)‖² by a composite rule of degree " + strconv.Itoa(b.o.InitialDegree) + " on " + strconv.Itoa(b.o.InitialSplit) + " sub-cells per edge, refined adaptively, with its error estimate added",
 		"v equals u_D on the boundary at all times (P1 data, linear in time per step)",
 		"modulus " + b.mod.Label.String(),
