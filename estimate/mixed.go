@@ -211,13 +211,14 @@ func (q *equilibrator) flux(ctx context.Context, G convex.Potential, v []float64
 	clear(flux)
 	for k := range nc {
 		for i := range 3 {
+			// |e| n_e is the edge vector turned clockwise (see fem.RT0.Normal).
 			ed := rt.CellEdges[k][i]
-			nx, ny := rt.Normal(m, int(ed))
+			a, b := m.Nodes[rt.Edges[ed][0]], m.Nodes[rt.Edges[ed][1]]
 			w := 0.5
 			if rt.OnBoundary[ed] {
 				w = 1
 			}
-			flux[ed] += w * rt.Length[ed] * (q.sigma[k][0]*nx + q.sigma[k][1]*ny)
+			flux[ed] += w * (q.sigma[k][0]*(b.Y-a.Y) - q.sigma[k][1]*(b.X-a.X))
 		}
 	}
 	q.balance(e.proj, flux)
@@ -479,10 +480,14 @@ type stream struct {
 	rule  fem.Rule
 	lams  [][3]float64
 	coef  [][3]float64
-	// gvec and hess are the gradient and the weight of the model at the
-	// quadrature points; held is the weight the matrix was built from.
+	// gvec is the gradient of the model at the quadrature points. Its
+	// weight is hess, one per cell, or, for a Newton step (perPoint),
+	// hessPts at the quadrature points; held is the weight per cell that
+	// the matrix was built from.
 	gvec       [][2]float64
 	hess, held [][3]float64
+	hessPts    [][3]float64
+	perPoint   bool
 	b, x       []float64
 	// assembled: the matrix holds held; fresh: the multigrid was updated
 	// for it; refIters is the CG count of the first solve after the last
@@ -536,8 +541,8 @@ func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
 	}
 	st.coef = make([][3]float64, nc)
 	st.gvec = make([][2]float64, nc*nq)
-	st.hess = make([][3]float64, nc*nq)
-	st.held = make([][3]float64, nc*nq)
+	st.hess = make([][3]float64, nc)
+	st.held = make([][3]float64, nc)
 	st.b, st.x = make([]float64, st.n), make([]float64, st.n)
 	st.warm = make([]float64, st.n)
 	return st, nil
@@ -560,15 +565,38 @@ func (st *stream) gradBasis(k int, lam [3]float64, dst *[6][2]float64) int {
 	return 6
 }
 
+// weight returns the model weight at quadrature point q of cell k.
+func (st *stream) weight(k, q int) [3]float64 {
+	if st.perPoint {
+		return st.hessPts[k*len(st.lams)+q]
+	}
+	return st.hess[k]
+}
+
 // modelGradient sets gvec to W(y* − σ) at the quadrature points, the
 // gradient of the quadratic model ½∫ (y* − σ)ᵀ W (y* − σ), W = hess.
 func (st *stream) modelGradient(e *Equilibrated, sigma [][2]float64) {
 	nq := len(st.lams)
+	if st.order == 0 && !st.perPoint {
+		// y* is linear and W constant on the cell, and the stream
+		// gradients are constant: only the cell mean of W(y* − σ), its
+		// value at the centroid, enters the right side.
+		for k := range sigma {
+			y, _ := e.At(k, [3]float64{1.0 / 3, 1.0 / 3, 1.0 / 3})
+			w := st.hess[k]
+			d := [2]float64{y[0] - sigma[k][0], y[1] - sigma[k][1]}
+			g := [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
+			for q := range nq {
+				st.gvec[k*nq+q] = g
+			}
+		}
+		return
+	}
 	for k := range sigma {
 		for q, lam := range st.lams {
 			y, _ := e.At(k, lam)
 			i := k*nq + q
-			w := st.hess[i]
+			w := st.weight(k, q)
 			d := [2]float64{y[0] - sigma[k][0], y[1] - sigma[k][1]}
 			st.gvec[i] = [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
 		}
@@ -587,23 +615,24 @@ func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potent
 			return fmt.Errorf("equilibrated flux: stopped: %w", err)
 		}
 		if step == 0 {
-			for k, w := range model {
-				for q := range nq {
-					st.hess[k*nq+q] = w
-				}
-			}
+			copy(st.hess, model)
+			st.perPoint = false
 			st.modelGradient(e, sigma)
 			if err := st.solve(ctx, e, st.tol, true); err != nil {
 				return err
 			}
 		} else {
+			if st.hessPts == nil {
+				st.hessPts = make([][3]float64, nc*nq)
+			}
+			st.perPoint = true
 			for k := range nc {
 				for q, lam := range st.lams {
 					y, _ := e.At(k, lam)
 					i := k*nq + q
 					xi := convex.DualFlux(G, y)
 					st.gvec[i] = [2]float64{xi[0] - grad[k][0], xi[1] - grad[k][1]}
-					st.hess[i] = inv2(convex.Hessian(G, xi, reg))
+					st.hessPts[i] = inv2(convex.Hessian(G, xi, reg))
 				}
 			}
 		}
@@ -645,6 +674,7 @@ func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potent
 func (st *stream) correct(ctx context.Context, e *Equilibrated, sigma [][2]float64, opt EquilibrateOptions) error {
 	st.tol = opt.Tol
 	copy(st.hess, st.held)
+	st.perPoint = false
 	st.modelGradient(e, sigma)
 	// The correction is small: solve it to the accuracy asked of the whole
 	// model solve, not to a fraction of its own size.
@@ -674,12 +704,13 @@ func (st *stream) correct(ctx context.Context, e *Equilibrated, sigma [][2]float
 // With warm set, the latest model solution starts the CG when its residual
 // is below ‖b‖, and bnorm records ‖b‖.
 func (st *stream) solve(ctx context.Context, e *Equilibrated, tol float64, warm bool) error {
-	if !st.assembled || !slices.Equal(st.hess, st.held) {
+	if st.perPoint || !st.assembled || !slices.Equal(st.hess, st.held) {
 		if err := st.assemble(); err != nil {
 			return err
 		}
+		// A Newton weight varies within the cells: no later model equals it.
 		copy(st.held, st.hess)
-		st.assembled = true
+		st.assembled = !st.perPoint
 		if !st.fresh || st.lastIters > 2*st.refIters+4 {
 			st.fresh = false
 		}
@@ -800,7 +831,7 @@ func (st *stream) assemble() error {
 		var mean [3]float64
 		constant := true
 		for q := range nq {
-			h := st.hess[k*nq+q]
+			h := st.weight(k, q)
 			if !(h[0] > 0 && h[2] > 0 && h[0]*h[2] > h[1]*h[1]) || math.IsInf(h[0]+h[2], 0) {
 				return fmt.Errorf("equilibrated flux: the Hessian of G* is not positive definite in cell %d (%v); the potential may not be strictly convex there", k, h)
 			}
@@ -808,7 +839,7 @@ func (st *stream) assemble() error {
 			for j := range 3 {
 				mean[j] += 2 * r.Weights[q] * kq[j]
 			}
-			constant = constant && h == st.hess[k*nq]
+			constant = constant && h == st.weight(k, 0)
 		}
 		st.coef[k] = mean
 		if st.order == 0 {
@@ -820,7 +851,7 @@ func (st *stream) assemble() error {
 		}
 		for q := range nq {
 			w := 2 * area * r.Weights[q]
-			h := st.hess[k*nq+q]
+			h := st.weight(k, q)
 			kq := [3]float64{h[2], -h[1], h[0]}
 			nb := st.gradBasis(k, st.lams[q], &gb)
 			for a := range nb {
@@ -886,6 +917,24 @@ func (st *stream) rhs() {
 	b := st.b
 	clear(b)
 	var gb [6][2]float64
+	if st.order == 0 {
+		// Constant stream gradients: the cell integral of g first.
+		for k := range nc {
+			var m [2]float64
+			for q := range nq {
+				w := 2 * st.s.Area[k] * r.Weights[q]
+				m[0] += w * st.gvec[k*nq+q][0]
+				m[1] += w * st.gvec[k*nq+q][1]
+			}
+			g := &st.s.Grad[k]
+			for a := range 3 {
+				if da := st.dof[k][a]; da >= 0 {
+					b[da] -= g[a][0]*-m[1] + g[a][1]*m[0]
+				}
+			}
+		}
+		return
+	}
 	for k := range nc {
 		area := st.s.Area[k]
 		for q := range nq {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 
 	"gapbook/mesh"
@@ -223,4 +224,61 @@ func TestPoissonConvergenceRates(t *testing.T) {
 			t.Errorf("level %d: rates L2 %.3f (want 2), H1 %.3f (want 1)", i, r2, r1)
 		}
 	}
+}
+
+// TestWithBoundaryMatchesNewP1 checks that the space built by WithBoundary
+// on a copy of the mesh with other boundary flags is the space NewP1
+// builds on that copy: same free numbering, same pattern and the same
+// stiffness matrix for random coefficients (bit for bit: the same
+// geometry and the same assembly order), on meshes of both dimensions;
+// and that a mesh with other cells falls back to NewP1.
+func TestWithBoundaryMatchesNewP1(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	for _, m := range []*mesh.Mesh{hierarchy(t, 1, 6, 1), hierarchy(t, 2, 4, 1)} {
+		s, err := NewP1(m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, c := range []*mesh.Mesh{floating(m), pinOne(m)} {
+			got, err := s.WithBoundary(c)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want, err := NewP1(c)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(got.Free, want.Free) || !slices.Equal(got.pattern.RowPtr, want.pattern.RowPtr) || !slices.Equal(got.pattern.Col, want.pattern.Col) || !slices.Equal(got.pos, want.pos) {
+				t.Fatalf("dim %d: numbering or pattern differs from NewP1", m.Dim)
+			}
+			coef := randomSPD(rng, m.NumCells())
+			a, b := got.NewMatrix(), want.NewMatrix()
+			if err := got.Stiffness(coef, a); err != nil {
+				t.Fatal(err)
+			}
+			if err := want.Stiffness(coef, b); err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(a.Val, b.Val) {
+				t.Errorf("dim %d: stiffness matrices differ", m.Dim)
+			}
+		}
+	}
+	other, err := NewP1(hierarchy(t, 2, 2, 0))
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := hierarchy(t, 2, 4, 0)
+	got, err := other.WithBoundary(m)
+	if err != nil || len(got.Area) != m.NumCells() {
+		t.Errorf("another mesh: %v, %d areas for %d cells", err, len(got.Area), m.NumCells())
+	}
+}
+
+// pinOne returns a copy of m in which only node 0 is a boundary node.
+func pinOne(m *mesh.Mesh) *mesh.Mesh {
+	c := *m
+	c.Boundary = make([]bool, m.NumNodes())
+	c.Boundary[0] = true
+	return &c
 }

@@ -277,7 +277,8 @@ func prolongation(f *mesh.Mesh, ffree []int32, c *mesh.Mesh, cfree []int32, nc i
 			nf++
 		}
 	}
-	p := &CSR{Rows: nf, Cols: nc, RowPtr: make([]int32, nf+1)}
+	// At most two parents per fine node: no growth by appending.
+	p := &CSR{Rows: nf, Cols: nc, RowPtr: make([]int32, nf+1), Col: make([]int32, 0, 2*nf), Val: make([]float64, 0, 2*nf)}
 	for i, fi := range ffree {
 		if fi < 0 {
 			continue
