@@ -164,10 +164,10 @@ type Parabolic struct {
 	// says the flux projection uses the same rule and can fill them
 	loads     [2]loadCache
 	shareLoad bool
-	// stepT0 is the start of the step being added
-	stepT0     float64
-	exRule     fem.Rule
-	exTx, exTw []float64
+	// stepT0 and stepT1 are the ends of the step being added
+	stepT0, stepT1 float64
+	exRule         fem.Rule
+	exTx, exTw     []float64
 	// accumulators
 	steps              int
 	t0, t1             float64
@@ -388,7 +388,7 @@ func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) 
 		return fmt.Errorf("parabolic bounds: step starts at %g but the previous one ended at %g", t0, b.t1)
 	}
 	tau := t1 - t0
-	b.stepT0 = t0
+	b.stepT0, b.stepT1 = t0, t1
 	for i := range b.d {
 		b.d[i] = (v1[i] - v0[i]) / tau
 	}
@@ -601,11 +601,18 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 			if ya != yb {
 				_, d0 = ya.At(k, lam)
 			}
-			var dv, x, yy float64
+			var dv float64
 			for a := range nv {
 				dv += lam[a] * dn[a]
-				x += lam[a] * px[a]
-				yy += lam[a] * py[a]
+			}
+			// The point as fem.P1 maps it, where the time stepper samples
+			// f for its load (LoadSamples).
+			ref := b.rrule.Points[i]
+			x := px[0] + ref[0]*(px[1]-px[0])
+			var yy float64
+			if nv == 3 {
+				x += ref[1] * (px[2] - px[0])
+				yy = py[0] + ref[0]*(py[1]-py[0]) + ref[1]*(py[2]-py[0])
 			}
 			r0, rm, r1 := d0-dv, (d0+d1)/2-dv, d1-dv
 			if b.p.F != nil {

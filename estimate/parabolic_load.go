@@ -1,5 +1,7 @@
 package estimate
 
+import "slices"
+
 // loadTimes are the time points of the residual terms in a step, in
 // normalised time s = (t − t_{n−1})/τ: Simpson's rule (3-point
 // Gauss–Lobatto, degree 3), whose end points are shared with the
@@ -33,11 +35,11 @@ func (b *Parabolic) loadAt(t float64) *loadCache {
 	return nil
 }
 
-// freeLoad returns a slot to overwrite for time t, keeping the one that
-// holds keep (the start of the current step).
-func (b *Parabolic) freeLoad(keep float64) *loadCache {
+// freeLoad returns a slot to overwrite, keeping those that hold the times
+// in keep (the ends of the current step).
+func (b *Parabolic) freeLoad(keep ...float64) *loadCache {
 	for i := range b.loads {
-		if c := &b.loads[i]; !c.ok || c.t != keep {
+		if c := &b.loads[i]; !c.ok || !slices.Contains(keep, c.t) {
 			if c.v == nil {
 				c.v = make([]float64, b.s.Mesh.NumCells()*b.rrule.Len())
 			}
@@ -54,7 +56,7 @@ func (b *Parabolic) recordLoad(t float64) *loadCache {
 	if b.p.F == nil || b.loadAt(t) != nil || !b.shareLoad {
 		return nil
 	}
-	c := b.freeLoad(b.stepT0)
+	c := b.freeLoad(b.stepT0, b.stepT1)
 	c.t, c.ok, c.next, c.broken = t, false, 0, false
 	return c
 }
@@ -85,4 +87,24 @@ func (c *loadCache) finishRecord() {
 	if c != nil {
 		c.ok = !c.broken && c.next == len(c.v)
 	}
+}
+
+// LoadSamples takes f(·, t1) at the points of the rule of the given degree
+// (fem.P1.Rule order of points, cell by cell: vals[k·nq + q]), as the time
+// stepper evaluated them for its load (nonlinear.EvolveOptions.Load), so
+// that the flux projection and the residual terms of the steps next to t1
+// use them instead of evaluating f again. Samples of another degree than
+// ParabolicOptions.LoadDegree, or with Split > 1, are ignored. The caller
+// vouches that vals are values of ParabolicProblem.F.
+func (b *Parabolic) LoadSamples(t1 float64, degree int, vals []float64) {
+	if b.p.F == nil || degree != b.o.LoadDegree || b.o.Split != 1 || len(vals) != b.s.Mesh.NumCells()*len(b.rlam) {
+		return
+	}
+	if c := b.loadAt(t1); c != nil {
+		copy(c.v, vals)
+		return
+	}
+	c := b.freeLoad(b.t1)
+	copy(c.v, vals)
+	c.t, c.ok = t1, true
 }

@@ -261,3 +261,48 @@ func TestAdaptEvolution(t *testing.T) {
 		t.Errorf("bound fell only from %.3e to %.3e", first, last)
 	}
 }
+
+// TestParabolicLoadSharing counts the evaluations of f by the bounds of an
+// RT1 flux linear in time: the flux projection at t_n and the residual
+// terms of both steps next to t_n share one sample per point, so a run of
+// N steps evaluates f (2N + 1) times per point of the residual rule, and
+// (N + 1) times when the time stepper hands over its load samples
+// (nonlinear.EvolveOptions.Load). The bounds must not change beyond
+// round-off when the samples come from the stepper.
+func TestParabolicLoadSharing(t *testing.T) {
+	c := parCases[4]
+	G := must(convex.Power(c.alpha))
+	man := must(nonlinear.Manufacture(c.u, G))
+	m := must(mesh.Rectangle(0, 1, 0, 1, c.n, c.n))
+	s := must(fem.NewP1(m))
+	uD := func(x, y, t float64) float64 { return man.U(x, y, t) }
+	u0 := func(x, y float64) float64 { return man.U(x, y, c.t0) }
+	nr := CompositeRule(2, 5, 1).Len() * m.NumCells()
+	var splits []float64
+	for _, share := range []bool{false, true} {
+		calls := 0
+		fb := func(x, y, t float64) float64 { calls++; return man.Source(x, y, t) }
+		fs := func(x, y, t float64) float64 { return man.Source(x, y, t) }
+		pb := must(NewParabolic(s, ParabolicProblem{G: G, F: fb, U0: u0},
+			ParabolicOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}}))
+		eo := nonlinear.EvolveOptions{}
+		if share {
+			eo.Load = pb.LoadSamples
+		}
+		if _, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: fs, Dirichlet: uD, U0: u0,
+			T0: c.t0, T: c.t1, Steps: c.steps}, eo, pb.Step); err != nil {
+			t.Fatal(err)
+		}
+		want := (2*c.steps + 1) * nr
+		if share {
+			want = (c.steps + 1) * nr
+		}
+		if calls != want {
+			t.Errorf("shared samples %v: f evaluated %d times, want %d", share, calls, want)
+		}
+		splits = append(splits, must(pb.Bounds()).Split.Value)
+	}
+	if d := math.Abs(splits[0] - splits[1]); d > 1e-12*splits[0] {
+		t.Errorf("(P-MAJ) %.15e with the stepper's samples, %.15e without", splits[1], splits[0])
+	}
+}

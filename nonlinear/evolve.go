@@ -56,6 +56,13 @@ type EvolveOptions struct {
 	Newton Options
 	// Progress, when set, is called after every time step.
 	Progress func(EvolveStep)
+	// Load, when set, receives before each step's StepFunc the samples of
+	// f(·, t1) that the step's load ∫ f φ_i was computed from: vals[k·nq +
+	// q] = f at quadrature point q of cell k of the rule of the given
+	// degree (fem.P1.Rule, points in the order of fem.P1.QuadPoints), so
+	// that error bounds need not evaluate f there again. vals is reused
+	// after the call.
+	Load func(t1 float64, degree int, vals []float64)
 }
 
 // EvolveResult summarises a completed evolution.
@@ -134,12 +141,18 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 		}
 	}
 	res := &EvolveResult{Times: times}
+	var ld *loadSamples
+	if e.F != nil {
+		if ld, err = newLoadSamples(m, opt.Newton.LoadDegree); err != nil {
+			return nil, err
+		}
+	}
 	for n := 1; n < len(times); n++ {
 		t0, t1 := times[n-1], times[n]
 		tau := t1 - t0
 		p := Problem{G: e.G, Mass: 1 / tau, Ref: prev}
 		if e.F != nil {
-			p.F = func(x, y float64) float64 { return e.F(x, y, t1) }
+			p.F = ld.at(e.F, t1)
 		}
 		if e.Dirichlet != nil {
 			p.Dirichlet = func(x, y float64) float64 { return e.Dirichlet(x, y, t1) }
@@ -162,6 +175,9 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 		}
 		res.Newton += r.Newton
 		res.CG += r.CG
+		if opt.Load != nil && ld != nil {
+			opt.Load(t1, ld.degree, ld.vals)
+		}
 		if step != nil {
 			if err := step(ctx, t0, t1, prev, r.U); err != nil {
 				return res, fmt.Errorf("evolution: step %d of %d (t = %g): %w", n, len(times)-1, t1, err)
