@@ -783,7 +783,7 @@ func (b *Parabolic) safeguardGap(tau float64, ya, yb Flux) float64 {
 	var add float64
 	for k := range m.Cells {
 		unit := tau * s.Area[k]
-		if !comesNearZero(b.samples[k]) || b.cellGap[k] <= 10*q.abs[0]*unit {
+		if b.cellGap[k] <= 10*q.abs[0]*unit || !comesNearZero(b.samples[k]) {
 			continue
 		}
 		v, e := q.run(k, [slabTerms]float64{b.cellGap[k] / unit}, budget)

@@ -185,10 +185,45 @@ func (q *slabQuad) run(k int, parent [slabTerms]float64, budget int) (val, err [
 // comesNearZero reports whether the vectors a, sampled at the points of one
 // cell and step, come near zero: their smallest length does not exceed
 // their spread, so that |a|^β (β < 2) may have a kink or a cusp inside.
+// Lengths are compared squared, without square roots; where the squares
+// leave the floating-point range, by math.Hypot.
 func comesNearZero(a [][2]float64) bool {
 	if len(a) == 0 {
 		return false
 	}
+	lo, hi := a[0], a[0]
+	small := math.Inf(1)
+	for _, x := range a {
+		if x[0] < lo[0] {
+			lo[0] = x[0]
+		} else if x[0] > hi[0] {
+			hi[0] = x[0]
+		}
+		if x[1] < lo[1] {
+			lo[1] = x[1]
+		} else if x[1] > hi[1] {
+			hi[1] = x[1]
+		}
+		if n := x[0]*x[0] + x[1]*x[1]; n < small {
+			small = n
+		}
+	}
+	dx, dy := hi[0]-lo[0], hi[1]-lo[1]
+	spread := dx*dx + dy*dy
+	if small > 1e-280 && small < 1e280 && spread < 1e280 {
+		if spread == 0 {
+			return false
+		}
+		if spread > 1e-280 {
+			return small <= spread
+		}
+	}
+	return slowNearZero(a)
+}
+
+// slowNearZero is comesNearZero by math.Hypot, for lengths whose squares
+// underflow or overflow (NaN samples compare false, as there).
+func slowNearZero(a [][2]float64) bool {
 	lo, hi := a[0], a[0]
 	small := math.Inf(1)
 	for _, x := range a {

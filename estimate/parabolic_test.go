@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"testing"
 
 	"gapbook/convex"
@@ -304,5 +305,43 @@ func TestParabolicLoadSharing(t *testing.T) {
 	}
 	if d := math.Abs(splits[0] - splits[1]); d > 1e-12*splits[0] {
 		t.Errorf("(P-MAJ) %.15e with the stepper's samples, %.15e without", splits[1], splits[0])
+	}
+}
+
+// TestComesNearZero holds the squared-length test to the test by
+// math.Hypot on random sample sets (scaled from 1e-200 to 1e200, so that
+// the squares leave the floating-point range) and on sets built to lie on
+// either side of the decision.
+func TestComesNearZero(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 7))
+	for i := range 4000 {
+		scale := math.Pow(10, float64(rng.IntN(401)-200))
+		off := [2]float64{rng.NormFloat64() * 3, rng.NormFloat64() * 3}
+		a := make([][2]float64, 1+rng.IntN(12))
+		for j := range a {
+			a[j] = [2]float64{scale * (off[0] + rng.NormFloat64()), scale * (off[1] + rng.NormFloat64())}
+		}
+		if i%10 == 0 {
+			a[0] = [2]float64{}
+		}
+		if got, want := comesNearZero(a), slowNearZero(a); got != want {
+			t.Fatalf("samples %v: %v, by Hypot %v", a, got, want)
+		}
+	}
+	for _, c := range []struct {
+		a    [][2]float64
+		want bool
+	}{
+		{[][2]float64{{1, 0}, {1.5, 0}}, false},
+		{[][2]float64{{1, 0}, {2, 0}}, true},
+		{[][2]float64{{-1, 0}, {1, 0}}, true},
+		{[][2]float64{{1e300, 0}, {1.1e300, 0}}, false},
+		{[][2]float64{{3e-300, 4e-300}, {3e-300, -4e-300}}, true},
+		{[][2]float64{{0.5, 0.5}, {0.5, 0.5}}, false},
+		{[][2]float64{{0, 0}, {0, 0}}, true},
+	} {
+		if got := comesNearZero(c.a); got != c.want {
+			t.Errorf("%v: %v, want %v", c.a, got, c.want)
+		}
 	}
 }
