@@ -480,10 +480,13 @@ type stream struct {
 	rule  fem.Rule
 	lams  [][3]float64
 	coef  [][3]float64
-	// gvec is the gradient of the model at the quadrature points. Its
-	// weight is hess, one per cell, or, for a Newton step (perPoint),
-	// hessPts at the quadrature points; held is the weight per cell that
+	// The gradient of the model is W(y* − σ) for y* = ye and σ = sig
+	// with the weight W = hess, one per cell, formed where rhs needs it;
+	// for a Newton step (perPoint) it is gvec with the weight hessPts,
+	// both at the quadrature points. held is the weight per cell that
 	// the matrix was built from.
+	ye         *Equilibrated
+	sig        [][2]float64
 	gvec       [][2]float64
 	hess, held [][3]float64
 	hessPts    [][3]float64
@@ -540,7 +543,6 @@ func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
 		st.lams[q] = [3]float64{1 - p[0] - p[1], p[0], p[1]}
 	}
 	st.coef = make([][3]float64, nc)
-	st.gvec = make([][2]float64, nc*nq)
 	st.hess = make([][3]float64, nc)
 	st.held = make([][3]float64, nc)
 	st.b, st.x = make([]float64, st.n), make([]float64, st.n)
@@ -573,34 +575,18 @@ func (st *stream) weight(k, q int) [3]float64 {
 	return st.hess[k]
 }
 
-// modelGradient sets gvec to W(y* − σ) at the quadrature points, the
-// gradient of the quadratic model ½∫ (y* − σ)ᵀ W (y* − σ), W = hess.
+// modelGradient makes W(y* − σ) the gradient of the quadratic model
+// ½∫ (y* − σ)ᵀ W (y* − σ), W = hess; rhs evaluates it.
 func (st *stream) modelGradient(e *Equilibrated, sigma [][2]float64) {
-	nq := len(st.lams)
-	if st.order == 0 && !st.perPoint {
-		// y* is linear and W constant on the cell, and the stream
-		// gradients are constant: only the cell mean of W(y* − σ), its
-		// value at the centroid, enters the right side.
-		for k := range sigma {
-			y, _ := e.At(k, [3]float64{1.0 / 3, 1.0 / 3, 1.0 / 3})
-			w := st.hess[k]
-			d := [2]float64{y[0] - sigma[k][0], y[1] - sigma[k][1]}
-			g := [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
-			for q := range nq {
-				st.gvec[k*nq+q] = g
-			}
-		}
-		return
-	}
-	for k := range sigma {
-		for q, lam := range st.lams {
-			y, _ := e.At(k, lam)
-			i := k*nq + q
-			w := st.weight(k, q)
-			d := [2]float64{y[0] - sigma[k][0], y[1] - sigma[k][1]}
-			st.gvec[i] = [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
-		}
-	}
+	st.ye, st.sig = e, sigma
+}
+
+// modelAt returns W(y* − σ) at barycentric lam of cell k.
+func (st *stream) modelAt(k int, lam [3]float64) [2]float64 {
+	y, _ := st.ye.At(k, lam)
+	w := &st.hess[k]
+	d := [2]float64{y[0] - st.sig[k][0], y[1] - st.sig[k][1]}
+	return [2]float64{w[0]*d[0] + w[1]*d[1], w[1]*d[0] + w[2]*d[1]}
 }
 
 // minimise runs the quadratic-model step, with the weights model per cell,
@@ -624,6 +610,7 @@ func (st *stream) minimise(ctx context.Context, e *Equilibrated, G convex.Potent
 		} else {
 			if st.hessPts == nil {
 				st.hessPts = make([][3]float64, nc*nq)
+				st.gvec = make([][2]float64, nc*nq)
 			}
 			st.perPoint = true
 			for k := range nc {
@@ -909,7 +896,8 @@ func (st *stream) addLocal(k int, kq [3]float64) {
 	}
 }
 
-// rhs sets b to the right side −∫ ∇φ_a · Rᵀg of the stream system.
+// rhs sets b to the right side −∫ ∇φ_a · Rᵀg of the stream system for
+// the gradient g of the model.
 func (st *stream) rhs() {
 	nc := st.s.Mesh.NumCells()
 	r := st.rule
@@ -917,19 +905,16 @@ func (st *stream) rhs() {
 	b := st.b
 	clear(b)
 	var gb [6][2]float64
-	if st.order == 0 {
-		// Constant stream gradients: the cell integral of g first.
+	if st.order == 0 && !st.perPoint {
+		// y* is linear and W constant on the cell, and so are the stream
+		// gradients: only the cell integral |T| g(centroid) enters.
 		for k := range nc {
-			var m [2]float64
-			for q := range nq {
-				w := 2 * st.s.Area[k] * r.Weights[q]
-				m[0] += w * st.gvec[k*nq+q][0]
-				m[1] += w * st.gvec[k*nq+q][1]
-			}
-			g := &st.s.Grad[k]
+			g := st.modelAt(k, [3]float64{1.0 / 3, 1.0 / 3, 1.0 / 3})
+			m := [2]float64{st.s.Area[k] * g[0], st.s.Area[k] * g[1]}
+			gr := &st.s.Grad[k]
 			for a := range 3 {
 				if da := st.dof[k][a]; da >= 0 {
-					b[da] -= g[a][0]*-m[1] + g[a][1]*m[0]
+					b[da] -= gr[a][0]*-m[1] + gr[a][1]*m[0]
 				}
 			}
 		}
@@ -937,11 +922,16 @@ func (st *stream) rhs() {
 	}
 	for k := range nc {
 		area := st.s.Area[k]
-		for q := range nq {
-			i := k*nq + q
+		for q, lam := range st.lams {
 			w := 2 * area * r.Weights[q]
-			rg := [2]float64{-st.gvec[i][1], st.gvec[i][0]}
-			nb := st.gradBasis(k, st.lams[q], &gb)
+			var g [2]float64
+			if st.perPoint {
+				g = st.gvec[k*nq+q]
+			} else {
+				g = st.modelAt(k, lam)
+			}
+			rg := [2]float64{-g[1], g[0]}
+			nb := st.gradBasis(k, lam, &gb)
 			for a := range nb {
 				if da := st.dof[k][a]; da >= 0 {
 					b[da] -= w * (gb[a][0]*rg[0] + gb[a][1]*rg[1])
