@@ -341,6 +341,17 @@ func CompositeRule(dim, degree, split int) fem.Rule {
 	return r
 }
 
+// divAt is div y at lam in cell k, read directly from an equilibrated
+// flux (where it is stored per cell) without evaluating y.
+func divAt(y Flux, k int, lam [3]float64) float64 {
+	if e, ok := y.(*Equilibrated); ok {
+		d := &e.div[k]
+		return lam[0]*d[0] + lam[1]*d[1] + lam[2]*d[2]
+	}
+	_, div := y.At(k, lam)
+	return div
+}
+
 // refPoints returns the barycentric coordinates of the points of r and
 // their weights times the reference measure (weights that sum to 1).
 func refPoints(dim int, r fem.Rule) (lam [][3]float64, w []float64) {
@@ -573,6 +584,10 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 			gc[iq] = b.gp.cell(gs[iq])
 			dk[iq] = 0
 		}
+		var ys [][2]float64
+		if b.watchY {
+			ys = b.samples[k]
+		}
 		for i := range np {
 			lam := b.lam[i]
 			w := b.pw[i] * area
@@ -588,18 +603,21 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 				}
 				dk[iq] += w * b.gp.at(&gc[iq], y, math.Sqrt(y[0]*y[0]+y[1]*y[1]))
 				if b.watchY {
-					b.samples[k] = append(b.samples[k], y)
+					ys = append(ys, y)
 				}
 			}
+		}
+		if b.watchY {
+			b.samples[k] = ys
 		}
 		mk = [3]float64{}
 		var wk float64
 		for i := range nr {
 			lam, w := b.rlam[i], b.rpw[i]*area
-			_, d1 := yb.At(k, lam)
+			d1 := divAt(yb, k, lam)
 			d0 := d1
 			if ya != yb {
-				_, d0 = ya.At(k, lam)
+				d0 = divAt(ya, k, lam)
 			}
 			var dv float64
 			for a := range nv {
