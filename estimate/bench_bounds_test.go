@@ -83,10 +83,18 @@ func BenchmarkBounds(b *testing.B) {
 							if y0, err = NewAveraged(s, G, sol.U); err == nil {
 								y, err = Minimise(context.Background(), s, prob, sol.U, y0, MinimiseOptions{Friedrichs: cf})
 							}
-						case "equilibrated":
-							y, err = Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{})
-						case "equilibrated-rt1":
-							y, err = Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Order: 1})
+						case "equilibrated", "equilibrated-rt1":
+							// f sampled once for the flux's projection and
+							// the residual terms, as the notebook does.
+							order := 0
+							if name == "equilibrated-rt1" {
+								order = 1
+							}
+							var sm *Samples
+							if sm, err = NewSamples(s, f, 0); err == nil {
+								prob.Samples = sm
+								y, err = Equilibrate(context.Background(), s, G, sol.U, sm.Source(), EquilibrateOptions{Order: order, Degree: sm.Degree})
+							}
 						}
 						if err != nil {
 							b.Fatal(err)

@@ -26,6 +26,10 @@ type Problem struct {
 	// boundary edge (then a P1 v can match it exactly); nil means the
 	// caller asserts that v carries the exact Dirichlet data.
 	Dirichlet func(x, y float64) float64
+	// Samples, when set, are F at the points of the quadrature rule (see
+	// NewSamples), shared with the flux projection; they are used when
+	// their space and degree match, after a spot check that they hold F.
+	Samples *Samples
 }
 
 // Number is a computed value with its trust label and, for guaranteed
@@ -149,6 +153,12 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	wbuf := make([]float64, nq)
 	ybuf := make([][2]float64, nq)
 	dbuf := make([]float64, nq)
+	samples := p.Samples
+	if samples.cell(s, degree, nq, 0) == nil {
+		samples = nil
+	} else if err := samples.check(p.F); err != nil {
+		return nil, err
+	}
 	gp := newGapper(p.G)
 	pc := newPower(conj)
 	dim := s.Mesh.Dim
@@ -170,6 +180,7 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		}
 		gc := gp.cell(g)
 		atPoints(y, k, lams, ybuf, dbuf)
+		fs := samples.cell(s, degree, nq, k)
 		for q, lam := range lams {
 			w := wref[q] * s.Area[k]
 			x := lam[0]*px[0] + lam[1]*px[1] + lam[2]*px[2]
@@ -186,7 +197,12 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 			if sy > smax {
 				smax = sy
 			}
-			fx := p.F(x, yy)
+			var fx float64
+			if fs != nil {
+				fx = fs[q]
+			} else {
+				fx = p.F(x, yy)
+			}
 			fv += w * fx * vx
 			r := fx + div
 			if a := math.Abs(fx) + math.Abs(div); a > fmax {

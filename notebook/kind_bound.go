@@ -113,6 +113,7 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 		return nil, err
 	}
 	var y estimate.Flux
+	var samples *estimate.Samples
 	c.Progress(0.3, "flux reconstruction")
 	switch st.flux {
 	case fluxAveraged:
@@ -124,8 +125,12 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 				estimate.MinimiseOptions{Friedrichs: cf, Degree: st.degree})
 		}
 	default:
-		y, err = estimate.Equilibrate(c.Context(), s, p.G, sol.V, estimate.FuncSource(sol.Mesh, p.Source()),
-			estimate.EquilibrateOptions{Order: st.order, Newton: st.newton, Degree: st.degree})
+		// f sampled once at the points of the bounds' rule serves both the
+		// flux's projection of f and the residual terms.
+		if samples, err = estimate.NewSamples(s, p.Source(), st.degree); err == nil {
+			y, err = estimate.Equilibrate(c.Context(), s, p.G, sol.V, samples.Source(),
+				estimate.EquilibrateOptions{Order: st.order, Newton: st.newton, Degree: samples.Degree})
+		}
 	}
 	if err != nil {
 		if e := c.Err(); e != nil {
@@ -135,7 +140,7 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 	}
 	opt := estimate.Options{Degree: st.degree, Friedrichs: cf}
 	c.Progress(0.5, "bounds")
-	r, err := estimate.Estimate(s, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet()}, sol.V, y, opt)
+	r, err := estimate.Estimate(s, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet(), Samples: samples}, sol.V, y, opt)
 	if err != nil {
 		return nil, FieldErr("solution", "%v", err)
 	}

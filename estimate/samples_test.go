@@ -1,0 +1,67 @@
+package estimate
+
+import (
+	"context"
+	"math"
+	"strings"
+	"testing"
+
+	"gapbook/convex"
+	"gapbook/fem"
+	"gapbook/mesh"
+)
+
+// TestSamplesShared: an RT0 flux projected from shared samples and the
+// bounds evaluated with them equal, bit for bit, the flux and bounds that
+// evaluate f themselves at the same degree (an identity: the same numbers
+// in the same order), while f is called only when the samples are made.
+// Samples of another source are refused, and the Source answers f itself
+// away from the rule's points.
+func TestSamplesShared(t *testing.T) {
+	m := must(mesh.Rectangle(0, 1, 0, 2, 6, 8))
+	s := must(fem.NewP1(m))
+	G := must(convex.Power(3))
+	v := make([]float64, m.NumNodes())
+	for i, p := range m.Nodes {
+		v[i] = math.Sin(2*p.X) * p.Y
+	}
+	calls := 0
+	f := func(x, y float64) float64 { calls++; return math.Exp(x) * (1 + y*y) }
+	cf := must(WidthConstant(m, 3))
+	for _, order := range []int{0, 1} {
+		eo := EquilibrateOptions{Order: order, Degree: DefaultDegree}
+		y1 := must(Equilibrate(context.Background(), s, G, v, FuncSource(m, f), eo))
+		r1 := must(Estimate(s, Problem{G: G, F: f}, v, y1, Options{Friedrichs: cf}))
+		calls = 0
+		sm := must(NewSamples(s, f, 0))
+		made := calls
+		y2 := must(Equilibrate(context.Background(), s, G, v, sm.Source(), eo))
+		r2 := must(Estimate(s, Problem{G: G, F: f, Samples: sm}, v, y2, Options{Friedrichs: cf}))
+		if made != m.NumCells()*16 {
+			t.Errorf("RT%d: %d calls to make the samples, want %d", order, made, m.NumCells()*16)
+		}
+		// Only the spot check of the samples calls f again.
+		if extra := calls - made; extra > m.NumCells()/sampleCheckStride+1 {
+			t.Errorf("RT%d: %d calls to f after the samples were made", order, extra)
+		}
+		if r1.Majorant.Value != r2.Majorant.Value || r1.D != r2.D || r1.Residual != r2.Residual || r1.Energy != r2.Energy {
+			t.Errorf("RT%d: shared samples give majorant %.17g, D %.17g; own evaluation %.17g, %.17g",
+				order, r2.Majorant.Value, r2.D, r1.Majorant.Value, r1.D)
+		}
+	}
+	sm := must(NewSamples(s, f, 0))
+	other := func(x, y float64) float64 { return math.Exp(x) * (1 + y*y) * (1 + 1e-9) }
+	y := must(NewAveraged(s, G, v))
+	if _, err := Estimate(s, Problem{G: G, F: other, Samples: sm}, v, y, Options{Friedrichs: cf}); err == nil || !strings.Contains(err.Error(), "do not hold f") {
+		t.Errorf("samples of another source accepted: %v", err)
+	}
+	src := sm.Source()
+	lam := [3]float64{0.2, 0.3, 0.5}
+	x, yy := physical(s, 5, lam)
+	if got, want := src(5, lam), f(x, yy); got != want {
+		t.Errorf("source away from the rule's points: %g, f gives %g", got, want)
+	}
+	if _, err := NewSamples(s, func(x, y float64) float64 { return 1 / (x - x) }, 0); err == nil || !strings.Contains(err.Error(), "must be finite") {
+		t.Errorf("non-finite f accepted: %v", err)
+	}
+}
