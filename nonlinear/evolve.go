@@ -141,6 +141,9 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 		}
 	}
 	res := &EvolveResult{Times: times}
+	// One level for all steps: the mesh, hence space, patterns, multigrid
+	// and mass matrix, do not change.
+	cache := &levelCache{}
 	var ld *loadSamples
 	if e.F != nil {
 		if ld, err = newLoadSamples(m, opt.Newton.LoadDegree); err != nil {
@@ -165,10 +168,10 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 		// runs for degenerate or singular potentials is only a fallback.
 		warm := p
 		warm.G = warmPotential{e.G}
-		r, err := Solve(ctx, m, warm, o)
+		r, err := solve(ctx, m, warm, o, cache)
 		var nc *NotConvergedError
 		if errors.As(err, &nc) {
-			r, err = Solve(ctx, m, p, o)
+			r, err = solve(ctx, m, p, o, cache)
 		}
 		if err != nil {
 			return res, fmt.Errorf("evolution: step %d of %d (t = %g): %w", n, len(times)-1, t1, err)

@@ -34,23 +34,47 @@ type level struct {
 	bnorm      float64 // ‖b‖ on the free nodes
 }
 
+// levelCache keeps the last level built on a mesh, so that a sequence of
+// solves on one mesh (Evolve: one per time step) builds the space, the
+// matrix patterns, the multigrid hierarchy and the mass matrix once; only
+// the data (Dirichlet values, load, mass coefficient, reference) are set
+// again. The matrices are overwritten by every assembly, so results are
+// those of a fresh level.
+type levelCache struct {
+	m  *mesh.Mesh
+	lv *level
+}
+
 func (sv *solver) newLevel(m *mesh.Mesh, index int) (*level, error) {
-	s, err := fem.NewP1(m)
-	if err != nil {
-		return nil, fmt.Errorf("newton: %w", err)
+	var lv *level
+	if c := sv.cache; c != nil && c.m == m && c.lv != nil {
+		lv = c.lv
+		lv.index = index
+		clear(lv.bd)
+		clear(lv.load)
+	} else {
+		s, err := fem.NewP1(m)
+		if err != nil {
+			return nil, fmt.Errorf("newton: %w", err)
+		}
+		mg, err := fem.NewMultigrid(s)
+		if err != nil {
+			return nil, fmt.Errorf("newton: %w", err)
+		}
+		nn, nc, nf := s.NumNodes(), m.NumCells(), s.NumFree()
+		lv = &level{
+			index: index, s: s, mg: mg, hess: s.NewMatrix(),
+			bd: make([]float64, nn), load: make([]float64, nn),
+			grad: make([][2]float64, nc), coef: make([][3]float64, nc),
+			nodal: make([]float64, nn), trial: make([]float64, nn),
+			g: make([]float64, nf), d: make([]float64, nf), gt: make([]float64, nf),
+		}
+		if c := sv.cache; c != nil {
+			c.m, c.lv = m, lv
+		}
 	}
-	mg, err := fem.NewMultigrid(s)
-	if err != nil {
-		return nil, fmt.Errorf("newton: %w", err)
-	}
-	nn, nc, nf := s.NumNodes(), m.NumCells(), s.NumFree()
-	lv := &level{
-		index: index, s: s, mg: mg, hess: s.NewMatrix(),
-		bd: make([]float64, nn), load: make([]float64, nn),
-		grad: make([][2]float64, nc), coef: make([][3]float64, nc),
-		nodal: make([]float64, nn), trial: make([]float64, nn),
-		g: make([]float64, nf), d: make([]float64, nf), gt: make([]float64, nf),
-	}
+	s := lv.s
+	lv.c, lv.ref = 0, nil
 	if sv.p.Dirichlet != nil {
 		s.Interpolate(sv.p.Dirichlet, lv.bd)
 	}
@@ -69,9 +93,11 @@ func (sv *solver) newLevel(m *mesh.Mesh, index int) (*level, error) {
 	}
 	if sv.p.Mass > 0 {
 		lv.c, lv.ref = sv.p.Mass, sv.p.Ref
-		lv.mass = s.NewMatrix()
-		if err := s.Mass(lv.mass); err != nil {
-			return nil, fmt.Errorf("newton: %w", err)
+		if lv.mass == nil {
+			lv.mass = s.NewMatrix()
+			if err := s.Mass(lv.mass); err != nil {
+				return nil, fmt.Errorf("newton: %w", err)
+			}
 		}
 	}
 	return lv, nil

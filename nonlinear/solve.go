@@ -152,6 +152,12 @@ func (e *NotConvergedError) Error() string {
 // An error is a *NotConvergedError (with the history), a context error
 // (wrapped) or a description of invalid input.
 func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, error) {
+	return solve(ctx, m, p, o, nil)
+}
+
+// solve is Solve with the levels kept in cache (nil: none) for the next
+// call on the same mesh.
+func solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options, cache *levelCache) (*Result, error) {
 	if m == nil {
 		return nil, errors.New("newton: no mesh")
 	}
@@ -168,7 +174,7 @@ func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, er
 	if o.Initial != nil && len(o.Initial) != m.NumNodes() {
 		return nil, fmt.Errorf("newton: initial guess has %d values for %d nodes", len(o.Initial), m.NumNodes())
 	}
-	sv := &solver{p: p, o: o}
+	sv := &solver{p: p, o: o, cache: cache}
 	meshes := []*mesh.Mesh{m}
 	if o.Initial == nil && p.Mass == 0 {
 		for c := m; c.Coarse != nil && len(c.Parents) == c.NumNodes(); c = c.Coarse {
@@ -295,6 +301,7 @@ type solver struct {
 	o      Options
 	hist   []Step
 	reason string
+	cache  *levelCache
 }
 
 // continuation drives w through the smoothed potentials g_ε, ε = ε0, ε0/10,
