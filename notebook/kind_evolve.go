@@ -84,6 +84,8 @@ func (evolveKind) Evaluate(c *Context, in Values) (*Results, error) {
 	table = Table{Name: "steps", Title: "time steps", Columns: []Column{{Name: "t"}, {Name: "newton"}, {Name: "cg"}}}
 	run, err := nonlinear.Evolve(c.Context(), m, ev, nonlinear.EvolveOptions{
 		Newton: nonlinear.Options{Tol: in.Number("tolerance"), MaxIter: in.Int("max_newton")},
+		// The bounds reuse the samples of f the solver's load took.
+		Load: b.LoadSamples,
 		Progress: func(st nonlinear.EvolveStep) {
 			table.Rows = append(table.Rows, []float64{st.T1, float64(st.Newton), float64(st.CG)})
 			c.Progress(float64(st.N)/float64(st.Steps), fmt.Sprintf("step %d of %d, t = %.4g", st.N, st.Steps, st.T1))
