@@ -24,6 +24,17 @@ func BenchmarkEval2(b *testing.B) {
 	}
 }
 
+// The same with the Hessian in space only, as a source term needs it.
+func BenchmarkEval2First(b *testing.B) {
+	f := MustParse(benchSource, xyt...)
+	p := []float64{0.3, 0.7, 0.1}
+	grad, hess := make([]float64, 3), make([]float64, 4)
+	b.ReportAllocs()
+	for b.Loop() {
+		f.Eval2First(p, grad, hess, 2)
+	}
+}
+
 // A potential g(t) with g, g′, g″ as Newton needs them at each quadrature point.
 func BenchmarkScalar(b *testing.B) {
 	f := MustParse("(1 + t^2)^(1.5/2) + abs(t)^3/3", "t")

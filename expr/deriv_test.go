@@ -319,3 +319,43 @@ func TestPLaplaceManufactured(t *testing.T) {
 }
 
 func ftoa(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+// TestEval2First checks that the Hessian block of the first k variables
+// and the whole gradient equal Eval2's entries bit for bit (an identity:
+// the same chain rules on the same values), for every k of every closed
+// form, at random points.
+func TestEval2First(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 11))
+	for _, c := range closedForms {
+		f := MustParse(c.src, c.vars...)
+		n := len(c.vars)
+		p := make([]float64, n)
+		grad, hess := make([]float64, n), make([]float64, n*n)
+		for range 5 {
+			for i := range p {
+				p[i] = 0.2 + rng.Float64()
+			}
+			v := f.Eval2(p, grad, hess)
+			for k := -1; k <= n+1; k++ {
+				kk := min(max(k, 0), n)
+				g2, h2 := make([]float64, n), make([]float64, kk*kk)
+				v2 := f.Eval2First(p, g2, h2, k)
+				if !same(v, v2) {
+					t.Fatalf("%s k = %d: value %v, Eval2 %v", c.name, k, v2, v)
+				}
+				for i := range n {
+					if !same(g2[i], grad[i]) {
+						t.Fatalf("%s k = %d: ∂_%d %v, Eval2 %v", c.name, k, i, g2[i], grad[i])
+					}
+				}
+				for i := range kk {
+					for j := range kk {
+						if !same(h2[i*kk+j], hess[i*n+j]) {
+							t.Fatalf("%s k = %d: H[%d][%d] %v, Eval2 %v", c.name, k, i, j, h2[i*kk+j], hess[i*n+j])
+						}
+					}
+				}
+			}
+		}
+	}
+}

@@ -330,8 +330,24 @@ func (f *Formula) Eval(p []float64) float64 {
 // a power, valid for negative a; a^b with variable b as exp(b log a). Eval2
 // does not allocate.
 func (f *Formula) Eval2(p, grad, hess []float64) float64 {
+	return f.eval2(p, grad, hess, len(f.vars))
+}
+
+// Eval2First is Eval2 with the Hessian only in the first k variables: it
+// stores the whole gradient in grad (len n) and the k×k Hessian block of
+// the first k variables in hess (row-major), with the same values as the
+// corresponding entries of Eval2, bit for bit. Carrying k(k+1)/2 instead
+// of n(n+1)/2 second derivatives makes it cheaper (for a source term
+// ∂_t u − D²G(∇u):∇²u, the spatial Hessian of u(x, y, t): 3 of 6). k is
+// clamped to [0, n].
+func (f *Formula) Eval2First(p, grad, hess []float64, k int) float64 {
+	return f.eval2(p, grad, hess, min(max(k, 0), len(f.vars)))
+}
+
+// eval2 is Eval2 with second derivatives in the first hk variables.
+func (f *Formula) eval2(p, grad, hess []float64, hk int) float64 {
 	n := len(f.vars)
-	m := n * (n + 1) / 2
+	m := hk * (hk + 1) / 2
 	w := 1 + n + m
 	J, R := f.jets[:f.depth*w], f.jets[f.depth*w:]
 	top := -w // offset of the top slot
@@ -388,8 +404,8 @@ func (f *Formula) Eval2(p, grad, hess []float64) float64 {
 			ga, gb := a[1:1+n], b[1:1+n]
 			ha, hb := a[1+n:], b[1+n:]
 			k := 0
-			for i := 0; i < n; i++ {
-				for j := i; j < n; j++ {
+			for i := 0; i < hk; i++ {
+				for j := i; j < hk; j++ {
 					ha[k] = mz(bv, ha[k]) + mz(av, hb[k]) + mz2(1, ga[i], gb[j]) + mz2(1, gb[i], ga[j])
 					k++
 				}
@@ -416,8 +432,8 @@ func (f *Formula) Eval2(p, grad, hess []float64) float64 {
 				ga, gb := a[1:1+n], b[1:1+n]
 				ha, hb := a[1+n:], b[1+n:]
 				k := 0
-				for i := 0; i < n; i++ {
-					for j := i; j < n; j++ {
+				for i := 0; i < hk; i++ {
+					for j := i; j < hk; j++ {
 						ha[k] = mz(fa, ha[k]) + mz(fb, hb[k]) + mz2(faa, ga[i], ga[j]) +
 							mz2(fab, ga[i], gb[j]) + mz2(fab, gb[i], ga[j]) + mz2(fbb, gb[i], gb[j])
 						k++
@@ -433,8 +449,8 @@ func (f *Formula) Eval2(p, grad, hess []float64) float64 {
 				v, d1, d2 := unaryJet(in.op, in.k, s[0])
 				g, h := s[1:1+n], s[1+n:]
 				k := 0
-				for i := 0; i < n; i++ {
-					for j := i; j < n; j++ {
+				for i := 0; i < hk; i++ {
+					for j := i; j < hk; j++ {
 						h[k] = mz(d1, h[k]) + mz2(d2, g[i], g[j])
 						k++
 					}
@@ -450,10 +466,10 @@ func (f *Formula) Eval2(p, grad, hess []float64) float64 {
 	copy(grad[:n], s[1:1+n])
 	h := s[1+n:]
 	k := 0
-	for i := 0; i < n; i++ {
-		for j := i; j < n; j++ {
-			hess[i*n+j] = h[k]
-			hess[j*n+i] = h[k]
+	for i := 0; i < hk; i++ {
+		for j := i; j < hk; j++ {
+			hess[i*hk+j] = h[k]
+			hess[j*hk+i] = h[k]
 			k++
 		}
 	}

@@ -9,7 +9,8 @@ import (
 
 // FuzzParseEval checks that no source makes Parse, Eval, Eval2 or Scalar
 // panic, that errors carry a column inside the source, and that Eval and
-// Eval2 agree on the value bit for bit.
+// Eval2 agree on the value bit for bit, and Eval2First on every value it
+// returns.
 func FuzzParseEval(f *testing.F) {
 	for _, s := range []string{
 		"sin(x*y)·exp(t)", "(x^2 + y^2)^(3/2) − 1e-3", "atan2(y, x) + min(x, t) * max(y, .5)",
@@ -44,6 +45,12 @@ func FuzzParseEval(f *testing.F) {
 					t.Fatalf("%q: Hessian not symmetric", src)
 				}
 			}
+		}
+		g2, h2 := make([]float64, 3), make([]float64, 4)
+		v3 := g.Clone().Eval2First(p, g2, h2, 2)
+		if !same(v3, v2) || !same(g2[0], grad[0]) || !same(g2[1], grad[1]) || !same(g2[2], grad[2]) ||
+			!same(h2[0], hess[0]) || !same(h2[1], hess[1]) || !same(h2[2], hess[3]) || !same(h2[3], hess[4]) {
+			t.Fatalf("%q at %v: Eval2First %v %v %v, Eval2 %v %v %v", src, p, v3, g2, h2, v2, grad, hess)
 		}
 		// Derivatives in a variable the formula does not use are exact zeros.
 		for i, name := range []string{"x", "y", "t"} {

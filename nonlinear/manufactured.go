@@ -14,7 +14,8 @@ import (
 //	f = ∂_t u − div ∂G(∇u) = ∂_t u − D²G(∇u) : ∇²u,
 //
 // the second form by the chain rule, with the first and second derivatives
-// of u by automatic differentiation (expr.Eval2) and the exact Hessian of G
+// of u by automatic differentiation (expr.Eval2First: the gradient in x, y,
+// t and the Hessian in space) and the exact Hessian of G
 // (no regularisation). For a steady problem ∂_t u = 0 unless the formula
 // uses t. In 1-D the formula is evaluated at y = 0.
 //
@@ -47,14 +48,14 @@ func Manufacture(src string, G convex.Potential) (*Manufactured, error) {
 		return nil, fmt.Errorf("exact solution %q: %w (allowed names: x, y, t)", src, err)
 	}
 	_, _, g2 := G.Profile(0)
-	return &Manufactured{G: G, u: u, singular: math.IsInf(g2, 1), grad: make([]float64, 3), hess: make([]float64, 9)}, nil
+	return &Manufactured{G: G, u: u, singular: math.IsInf(g2, 1), grad: make([]float64, 3), hess: make([]float64, 4)}, nil
 }
 
 // Clone returns a copy with its own scratch space.
 func (m *Manufactured) Clone() *Manufactured {
 	c := *m
 	c.u = m.u.Clone()
-	c.grad, c.hess = make([]float64, 3), make([]float64, 9)
+	c.grad, c.hess = make([]float64, 3), make([]float64, 4)
 	return &c
 }
 
@@ -67,22 +68,22 @@ func (m *Manufactured) U(x, y, t float64) float64 {
 // Grad returns ∇u(x, y, t) in space.
 func (m *Manufactured) Grad(x, y, t float64) (gx, gy float64) {
 	m.p = [3]float64{x, y, t}
-	m.u.Eval2(m.p[:], m.grad, m.hess)
+	m.u.Eval2First(m.p[:], m.grad, m.hess, 0)
 	return m.grad[0], m.grad[1]
 }
 
 // Source returns f(x, y, t) = ∂_t u − D²G(∇u) : ∇²u.
 func (m *Manufactured) Source(x, y, t float64) float64 {
 	m.p = [3]float64{x, y, t}
-	m.u.Eval2(m.p[:], m.grad, m.hess)
+	m.u.Eval2First(m.p[:], m.grad, m.hess, 2)
 	xi := [2]float64{m.grad[0], m.grad[1]}
 	reg := 0.0
 	if m.singular && xi == [2]float64{} {
 		reg = 1e-12
 	}
 	d := convex.Hessian(m.G, xi, reg)
-	h := m.hess // row-major 3×3 over (x, y, t)
-	return m.grad[2] - (d[0]*h[0] + 2*d[1]*h[1] + d[2]*h[4])
+	h := m.hess // row-major 2×2 over (x, y)
+	return m.grad[2] - (d[0]*h[0] + 2*d[1]*h[1] + d[2]*h[3])
 }
 
 // Steady returns the source, Dirichlet data and exact gradient at time t as
