@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"gapbook/convex"
@@ -342,6 +343,58 @@ func TestComesNearZero(t *testing.T) {
 	} {
 		if got := comesNearZero(c.a); got != c.want {
 			t.Errorf("%v: %v, want %v", c.a, got, c.want)
+		}
+	}
+}
+
+// TestParabolicExactGapRules checks that for α = 2 the lowest rules chosen
+// as exact for the polynomial gap (degree 2k + 2 in space, 2 Gauss points
+// in time) give the gap and the norms of ∇v that rules of higher degree
+// give, to round-off (an identity: both rules are exact), and that the
+// assumptions say so; and which potentials count as quadratic.
+func TestParabolicExactGapRules(t *testing.T) {
+	G := must(convex.Power(2))
+	man := must(nonlinear.Manufacture(parCases[1].u, G))
+	m := must(mesh.Rectangle(0, 1, 0, 1, 6, 6))
+	s := must(fem.NewP1(m))
+	f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
+	u0 := func(x, y float64) float64 { return man.U(x, y, 0) }
+	for _, fl := range parFluxes {
+		o := fl.o
+		low := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, o))
+		o.Degree, o.TimePoints = 8, 4
+		high := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, o))
+		both := func(ctx context.Context, t0, t1 float64, v0, v1 []float64) error {
+			if err := low.Step(ctx, t0, t1, v0, v1); err != nil {
+				return err
+			}
+			return high.Step(ctx, t0, t1, v0, v1)
+		}
+		if _, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: f, U0: u0,
+			Dirichlet: func(x, y, t float64) float64 { return man.U(x, y, t) }, T: 0.25, Steps: 3}, nonlinear.EvolveOptions{}, both); err != nil {
+			t.Fatal(err)
+		}
+		lo, hi := must(low.Bounds()), must(high.Bounds())
+		if d := math.Abs(lo.Gap - hi.Gap); !(d <= 1e-12*hi.Gap) {
+			t.Errorf("%s: gap %.15e by the exact rules, %.15e by degree 8 × 4 points", fl.name, lo.Gap, hi.Gap)
+		}
+		if d := math.Abs(lo.Split.Value - hi.Split.Value); !(d <= 1e-12*hi.Split.Value) {
+			t.Errorf("%s: bound %.15e by the exact rules, %.15e by degree 8 × 4 points", fl.name, lo.Split.Value, hi.Split.Value)
+		}
+		if !strings.Contains(lo.Assumptions[0], "exact for this polynomial integrand") || strings.Contains(hi.Assumptions[0], "exact for") {
+			t.Errorf("%s: assumptions %q / %q", fl.name, lo.Assumptions[0], hi.Assumptions[0])
+		}
+	}
+	for _, q := range []struct {
+		G    convex.Potential
+		want bool
+	}{
+		{must(convex.Power(2)), true}, {must(convex.Quadratic(2.5)), true},
+		{must(convex.Power(3)), false}, {must(convex.Power(1.5)), false},
+		{must(convex.PowerSum(0.5, 2, 3)), false},
+	} {
+		if got := isQuadratic(q.G); got != q.want {
+			t.Errorf("isQuadratic(%v) = %v, want %v", q.G, got, q.want)
 		}
 	}
 }
