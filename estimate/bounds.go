@@ -149,15 +149,35 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		lams[q], scale = cellPoint(s.Mesh.Dim, pt)
 		wref[q] = rule.Weights[q] * scale
 	}
-	rbuf := make([]float64, nq)
-	wbuf := make([]float64, nq)
 	ybuf := make([][2]float64, nq)
 	dbuf := make([]float64, nq)
-	samples := p.Samples
-	if samples.cell(s, degree, nq, 0) == nil {
+	// The terms with f (the residual norms and ∫ f v) use the rule of the
+	// samples when they are given (often the solver's load points, so that
+	// f is not evaluated again), else the same rule as the gap.
+	samples, rdeg := p.Samples, degree
+	if samples.cell(s, 0) == nil {
 		samples = nil
 	} else if err := samples.check(p.F); err != nil {
 		return nil, err
+	} else {
+		rdeg = samples.Degree
+	}
+	rrule, rlams, rwref := rule, lams, wref
+	if rdeg != degree {
+		rrule = s.Rule(rdeg)
+		rlams, rwref = make([][3]float64, rrule.Len()), make([]float64, rrule.Len())
+		for q, pt := range rrule.Points {
+			var scale float64
+			rlams[q], scale = cellPoint(s.Mesh.Dim, pt)
+			rwref[q] = rrule.Weights[q] * scale
+		}
+	}
+	rnq := rrule.Len()
+	rbuf := make([]float64, rnq)
+	wbuf := make([]float64, rnq)
+	rybuf, rdbuf := ybuf, dbuf
+	if rdeg != degree {
+		rybuf, rdbuf = make([][2]float64, rnq), make([]float64, rnq)
 	}
 	gp := newGapper(p.G)
 	pc := newPower(conj)
@@ -180,15 +200,10 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		}
 		gc := gp.cell(g)
 		atPoints(y, k, lams, ybuf, dbuf)
-		fs := samples.cell(s, degree, nq, k)
-		for q, lam := range lams {
-			w := wref[q] * s.Area[k]
-			x := lam[0]*px[0] + lam[1]*px[1] + lam[2]*px[2]
-			yy := lam[0]*py[0] + lam[1]*py[1] + lam[2]*py[2]
-			vx := lam[0]*pv[0] + lam[1]*pv[1] + lam[2]*pv[2]
-			ys, div := ybuf[q], dbuf[q]
+		for q := range lams {
+			ys := ybuf[q]
 			sy := math.Sqrt(ys[0]*ys[0] + ys[1]*ys[1])
-			dk += w * gp.at(&gc, ys, sy)
+			dk += wref[q] * s.Area[k] * gp.at(&gc, ys, sy)
 			// Plain comparisons: the values are finite or caught below as
 			// non-finite terms, so math.Min's NaN handling is not needed.
 			if sy < smin {
@@ -197,6 +212,17 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 			if sy > smax {
 				smax = sy
 			}
+		}
+		if rdeg != degree {
+			atPoints(y, k, rlams, rybuf, rdbuf)
+		}
+		fs := samples.cell(s, k)
+		for q, lam := range rlams {
+			w := rwref[q] * s.Area[k]
+			x := lam[0]*px[0] + lam[1]*px[1] + lam[2]*px[2]
+			yy := lam[0]*py[0] + lam[1]*py[1] + lam[2]*py[2]
+			vx := lam[0]*pv[0] + lam[1]*pv[1] + lam[2]*pv[2]
+			div := rdbuf[q]
 			var fx float64
 			if fs != nil {
 				fx = fs[q]
@@ -224,13 +250,13 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		}
 		// r − Π0 r has zero mean, so it vanishes in every cell: its power is
 		// always bounded through even powers (exact for α' = 2).
-		rk, ok := 0.0, residualPower(rbuf, wbuf, mk, conj, rule.Degree)
+		rk, ok := 0.0, residualPower(rbuf, wbuf, mk, conj, rrule.Degree)
 		if conj == 2 || rabs > nearZero*(rmax-rmin) || math.Max(-rmin, rmax) <= roundoff*fmax {
 			for q, r := range rbuf {
 				rk += wbuf[q] * pc.of(math.Abs(r))
 			}
 		} else {
-			rk = residualPower(rbuf, wbuf, 0, conj, rule.Degree)
+			rk = residualPower(rbuf, wbuf, 0, conj, rrule.Degree)
 			t.Quadrature.Holder++
 		}
 		t.Cell[k] = dk
@@ -256,6 +282,8 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		t.Quadrature.Subdivided++
 	}
 	t.Quadrature.Degree, t.Quadrature.Points, t.Quadrature.Depth = degree, nq, cq.depth
+	t.Quadrature.ResidualDegree, t.Quadrature.ResidualPoints = rdeg, rnq
+	t.Quadrature.Shared = samples != nil
 	t.Quadrature.ExtraPoints = cq.evals
 	var sumD, sumRes, sumMean, sumOsc float64
 	diam := s.Mesh.Diameters()
@@ -290,6 +318,11 @@ const roundoff = 1e-10
 type Quadrature struct {
 	// Degree is the exactness degree of the base rule, Points its size.
 	Degree, Points int
+	// ResidualDegree and ResidualPoints are those of the rule of the terms
+	// with f (residual norms, ∫ f v): the samples' rule when Shared (f read
+	// from Problem.Samples), else the base rule.
+	ResidualDegree, ResidualPoints int
+	Shared                         bool
 	// Subdivided counts the cells where ∫D_G was computed by adaptive
 	// subdivision (y* near zero somewhere in the cell); Depth is the deepest
 	// level reached and ExtraPoints the number of points this cost.
@@ -308,6 +341,12 @@ type Quadrature struct {
 // String summarises the quadrature for the assumptions of a result.
 func (q Quadrature) String() string {
 	s := "cell integrals by a quadrature rule of degree " + strconv.Itoa(q.Degree) + " (" + strconv.Itoa(q.Points) + " points)"
+	if q.ResidualDegree != q.Degree && q.ResidualDegree > 0 {
+		s += ", the terms with f (residual norms, ∫ f v) of degree " + strconv.Itoa(q.ResidualDegree) + " (" + strconv.Itoa(q.ResidualPoints) + " points)"
+	}
+	if q.Shared {
+		s += ", f read from samples at those points"
+	}
 	if q.Subdivided > 0 {
 		s += "; " + strconv.Itoa(q.Subdivided) + " cells where y* comes near zero subdivided adaptively (depth " +
 			strconv.Itoa(q.Depth) + "), estimated remaining error " + strconv.FormatFloat(q.GapError, 'e', 1, 64) +

@@ -54,6 +54,37 @@ func NewSamples(s *fem.P1, f func(x, y float64) float64, degree int) (*Samples, 
 	return sm, nil
 }
 
+// SamplesOf wraps values of f computed elsewhere — the solver's load
+// samples, nonlinear.Result.Load at degree Result.LoadDegree, in the order
+// of fem.P1.Sample — as Samples, so that neither the flux nor the bounds
+// evaluate f again. The rule must have positive weights (not degree 3 or
+// 7); values that are not finite are an error.
+func SamplesOf(s *fem.P1, f func(x, y float64) float64, degree int, vals []float64) (*Samples, error) {
+	if s == nil || f == nil {
+		return nil, errors.New("source samples: need a P1 space and a source f")
+	}
+	if degree <= 0 || positiveDegree(degree) != degree {
+		return nil, fmt.Errorf("source samples: the rule of degree %d has negative weights or none; the bounds need positive ones", degree)
+	}
+	rule := s.Rule(degree)
+	nq := rule.Len()
+	if len(vals) != s.Mesh.NumCells()*nq {
+		return nil, fmt.Errorf("source samples: %d values for %d cells × %d points", len(vals), s.Mesh.NumCells(), nq)
+	}
+	sm := &Samples{Degree: degree, s: s, f: f, lams: make([][3]float64, nq), vals: vals}
+	for q, pt := range rule.Points {
+		sm.lams[q], _ = cellPoint(s.Mesh.Dim, pt)
+	}
+	for i, v := range vals {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			k, q := i/nq, i%nq
+			x, y := physical(s, k, sm.lams[q])
+			return nil, fmt.Errorf("source samples: f is %g at (%g, %g) in cell %d; it must be finite", v, x, y, k)
+		}
+	}
+	return sm, nil
+}
+
 // Source returns f as a Source for Equilibrate: at the rule's points (which
 // the projection of degree Degree visits in order) the samples, anywhere
 // else f itself, so that it is f whatever it is asked.
@@ -81,12 +112,13 @@ func (sm *Samples) Source() Source {
 	}
 }
 
-// cell returns the samples of cell k when they belong to space s and a rule
-// of the given degree with nq points, else nil.
-func (sm *Samples) cell(s *fem.P1, degree, nq, k int) []float64 {
-	if sm == nil || sm.s.Mesh != s.Mesh || sm.Degree != degree || len(sm.lams) != nq {
+// cell returns the samples of cell k when they belong to the mesh of s,
+// else nil.
+func (sm *Samples) cell(s *fem.P1, k int) []float64 {
+	if sm == nil || sm.s.Mesh != s.Mesh {
 		return nil
 	}
+	nq := len(sm.lams)
 	return sm.vals[k*nq : (k+1)*nq]
 }
 
@@ -95,14 +127,27 @@ func (sm *Samples) cell(s *fem.P1, degree, nq, k int) []float64 {
 // samples of another source.
 const sampleCheckStride = 997
 
-// check confirms that the samples hold F (within rounding of the point's
-// coordinates) at one point every sampleCheckStride cells.
+// check confirms that the samples hold F at one point every
+// sampleCheckStride cells, within rounding: the solver maps the points by
+// its own arithmetic, so f may differ by its slope times a few ulp of the
+// coordinates (allowed: 1e-12 of the largest checked value).
 func (sm *Samples) check(F func(x, y float64) float64) error {
 	nq := len(sm.lams)
+	var scale float64
+	type pair struct {
+		k       int
+		v, want float64
+	}
+	var got []pair
 	for k := 0; k < sm.s.Mesh.NumCells(); k += sampleCheckStride {
 		x, y := physical(sm.s, k, sm.lams[0])
-		if v, want := sm.vals[k*nq], F(x, y); v != want && !(math.Abs(v-want) <= 1e-13*math.Abs(want)) {
-			return fmt.Errorf("estimate: the source samples do not hold f (cell %d: %g, f gives %g); build them with NewSamples from the problem's f", k, v, want)
+		p := pair{k, sm.vals[k*nq], F(x, y)}
+		scale = max(scale, math.Abs(p.v), math.Abs(p.want))
+		got = append(got, p)
+	}
+	for _, p := range got {
+		if !(math.Abs(p.v-p.want) <= 1e-12*scale) {
+			return fmt.Errorf("estimate: the source samples do not hold f (cell %d: %g, f gives %g); build them with NewSamples or SamplesOf from the problem's f", p.k, p.v, p.want)
 		}
 	}
 	return nil

@@ -9,6 +9,7 @@ import (
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/nonlinear"
 )
 
 // TestSamplesShared: an RT0 flux projected from shared samples and the
@@ -63,5 +64,43 @@ func TestSamplesShared(t *testing.T) {
 	}
 	if _, err := NewSamples(s, func(x, y float64) float64 { return 1 / (x - x) }, 0); err == nil || !strings.Contains(err.Error(), "must be finite") {
 		t.Errorf("non-finite f accepted: %v", err)
+	}
+}
+
+// TestSolverSamples: with the solver's load samples (degree 5) an RT0 flux
+// is projected and the bounds evaluated without a single further call of f
+// but the spot check; the result says which rules were used, and the bound
+// differs from the all-degree-8 one only by quadrature (1e-6 relative on
+// this smooth problem). Samples of a rule with negative weights or of the
+// wrong size are refused.
+func TestSolverSamples(t *testing.T) {
+	m := must(mesh.Rectangle(0, 1, 0, 1, 16, 16))
+	s := must(fem.NewP1(m))
+	G := must(convex.Power(3))
+	calls := 0
+	f := func(x, y float64) float64 { calls++; return math.Cos(x+2*y) + 2 }
+	sol := must(nonlinear.Solve(context.Background(), m, nonlinear.Problem{G: G, F: f}, nonlinear.Options{}))
+	cf := must(WidthConstant(m, 3))
+	calls = 0
+	sm := must(SamplesOf(s, f, sol.LoadDegree, sol.Load))
+	y := must(Equilibrate(context.Background(), s, G, sol.U, sm.Source(), EquilibrateOptions{Degree: sm.Degree}))
+	r := must(Estimate(s, Problem{G: G, F: f, Samples: sm}, sol.U, y, Options{Friedrichs: cf}))
+	if calls > m.NumCells()/sampleCheckStride+1 {
+		t.Errorf("%d calls of f after the solve", calls)
+	}
+	q := r.Quadrature
+	if q.Degree != DefaultDegree || q.ResidualDegree != sol.LoadDegree || q.ResidualPoints != 7 || !q.Shared ||
+		!strings.Contains(q.String(), "of degree 5 (7 points), f read from samples") {
+		t.Errorf("quadrature %+v: %s", q, q)
+	}
+	own := must(Estimate(s, Problem{G: G, F: f}, sol.U, must(Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Degree: 5})), Options{Friedrichs: cf}))
+	if math.Abs(own.Majorant.Value-r.Majorant.Value) > 1e-6*own.Majorant.Value {
+		t.Errorf("majorant %.12g with the solver's samples, %.12g with f at degree 8", r.Majorant.Value, own.Majorant.Value)
+	}
+	if _, err := SamplesOf(s, f, 3, make([]float64, m.NumCells()*6)); err == nil || !strings.Contains(err.Error(), "negative weights") {
+		t.Errorf("degree 3 accepted: %v", err)
+	}
+	if _, err := SamplesOf(s, f, 5, sol.Load[1:]); err == nil || !strings.Contains(err.Error(), "values for") {
+		t.Errorf("short samples accepted: %v", err)
 	}
 }

@@ -397,6 +397,19 @@ func (s *P1) Load(f func(x, y float64) float64, r Rule, dst []float64) {
 	}
 }
 
+// Sample sets dst[k·r.Len() + q] to f at quadrature point q of cell k, in
+// the order of QuadPoints (for LoadValues, and for error bounds that
+// integrate f on the same points).
+func (s *P1) Sample(f func(x, y float64) float64, r Rule, dst []float64) {
+	nq := r.Len()
+	for k := range s.Area {
+		for q, p := range r.Points {
+			x, y, _, _ := s.mapPoint(k, p)
+			dst[k*nq+q] = f(x, y)
+		}
+	}
+}
+
 // LoadValues is Load with f given by its values at the quadrature points
 // (vals[k·r.Len() + q], in the order of QuadPoints).
 func (s *P1) LoadValues(r Rule, vals, dst []float64) {

@@ -22,6 +22,7 @@ type level struct {
 	ref   []float64
 	bd    []float64 // Dirichlet values at the nodes (boundary entries used)
 	load  []float64 // nodal ∫ f φ_i
+	fvals []float64 // f at the load rule's points (fem.P1.Sample order)
 	grad  [][2]float64
 	coef  [][3]float64
 	nodal []float64
@@ -79,7 +80,12 @@ func (sv *solver) newLevel(m *mesh.Mesh, index int) (*level, error) {
 		s.Interpolate(sv.p.Dirichlet, lv.bd)
 	}
 	if sv.p.F != nil {
-		s.Load(sv.p.F, s.Rule(sv.o.LoadDegree), lv.load)
+		r := s.Rule(sv.o.LoadDegree)
+		if n := m.NumCells() * r.Len(); len(lv.fvals) != n {
+			lv.fvals = make([]float64, n)
+		}
+		s.Sample(sv.p.F, r, lv.fvals)
+		s.LoadValues(r, lv.fvals, lv.load)
 	}
 	for i, n := range s.FreeNodes {
 		lv.g[i] = lv.load[n]

@@ -113,6 +113,10 @@ type Result struct {
 	Newton, CG, MatVecs int
 	// LoadDegree is the exactness degree of the load quadrature used.
 	LoadDegree int
+	// Load holds f at the points of that rule on every cell of the finest
+	// mesh (fem.P1.Sample order), nil without f: error bounds can read the
+	// data there instead of evaluating f again.
+	Load []float64
 }
 
 // NotConvergedError reports a solve that did not reach its tolerances; it
@@ -245,7 +249,7 @@ func solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options, cache *level
 		}
 		if final {
 			e, _ := lv.energy(p.G, w)
-			r := &Result{U: w, Energy: e, History: sv.hist, LoadDegree: o.LoadDegree}
+			r := &Result{U: w, Energy: e, History: sv.hist, LoadDegree: o.LoadDegree, Load: lv.fvals}
 			for _, s := range sv.hist {
 				r.CG += s.CG
 				r.MatVecs += s.MatVecs

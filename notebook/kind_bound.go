@@ -46,7 +46,7 @@ func (boundKind) Inputs() []Input {
 		{Name: "constant", Type: Choice, Default: constBest, Choices: []string{constBest, constWidth},
 			Doc: "Friedrichs constant of the residual term: the best guaranteed one (for α = 2 the Crouzeix–Raviart eigenvalue bound when smaller than the width bound) or the width bound alone"},
 		{Name: "degree", Type: Integer, Default: estimate.DefaultDegree, Low: AtLeast(2), High: AtMost(8),
-			Doc: "exactness degree of the quadrature rule of the cell integrals (the guarantee holds up to this quadrature)"},
+			Doc: "exactness degree of the quadrature rule of the gap integrals; the terms with f use the solver's load rule, whose samples of f they share (the guarantee holds up to these quadratures, both listed in the assumptions)"},
 		{Name: "minorant", Type: Bool, Default: true,
 			Doc: "solve once more on the uniformly refined mesh: its energy gives the lower bound μ(v) ≥ J(v) − J(w) and the upper end of the energy interval"},
 	}
@@ -117,7 +117,9 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 	c.Progress(0.3, "flux reconstruction")
 	switch st.flux {
 	case fluxAveraged:
-		y, err = estimate.NewAveraged(s, p.G, sol.V)
+		if samples, err = boundSamples(sol, st.degree); err == nil {
+			y, err = estimate.NewAveraged(s, p.G, sol.V)
+		}
 	case fluxMinimised:
 		var y0 estimate.Flux
 		if y0, err = estimate.NewAveraged(s, p.G, sol.V); err == nil {
@@ -125,9 +127,9 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 				estimate.MinimiseOptions{Friedrichs: cf, Degree: st.degree})
 		}
 	default:
-		// f sampled once at the points of the bounds' rule serves both the
-		// flux's projection of f and the residual terms.
-		if samples, err = estimate.NewSamples(s, p.Source(), st.degree); err == nil {
+		// f sampled once serves both the flux's projection of f and the
+		// residual terms: the solver's load samples when it kept them.
+		if samples, err = boundSamples(sol, st.degree); err == nil {
 			y, err = estimate.Equilibrate(c.Context(), s, p.G, sol.V, samples.Source(),
 				estimate.EquilibrateOptions{Order: st.order, Newton: st.newton, Degree: samples.Degree})
 		}
@@ -145,6 +147,18 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 		return nil, FieldErr("solution", "%v", err)
 	}
 	return &Bounds{Solution: sol, Result: r, Flux: y}, nil
+}
+
+// boundSamples returns the samples of f for the flux and the bounds: the
+// solver's own (f at its load points, degree 5 by default) when it kept
+// them, so that f is not evaluated again, else f at the points of the
+// bounds' rule.
+func boundSamples(sol *Solution, degree int) (*estimate.Samples, error) {
+	p := sol.Problem
+	if r := sol.Result; r != nil && r.Load != nil {
+		return estimate.SamplesOf(sol.Space, p.Source(), r.LoadDegree, r.Load)
+	}
+	return estimate.NewSamples(sol.Space, p.Source(), degree)
 }
 
 func friedrichs(c *Context, m *mesh.Mesh, alpha float64, which string) (estimate.Constant, error) {

@@ -52,7 +52,12 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 		t.Fatal(err)
 	}
 	s, _ := fem.NewP1(m)
-	y, err := estimate.Equilibrate(context.Background(), s, G, sol.U, estimate.FuncSource(m, one), estimate.EquilibrateOptions{Order: 1, Newton: 2, Degree: 8})
+	// The bound cell reads f from the solver's load samples.
+	sm, err := estimate.SamplesOf(s, one, sol.LoadDegree, sol.Load)
+	if err != nil {
+		t.Fatal(err)
+	}
+	y, err := estimate.Equilibrate(context.Background(), s, G, sol.U, sm.Source(), estimate.EquilibrateOptions{Order: 1, Newton: 2, Degree: sm.Degree})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -60,7 +65,7 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r, err := estimate.Estimate(s, estimate.Problem{G: G, F: one}, sol.U, y, estimate.Options{Degree: 8, Friedrichs: cf})
+	r, err := estimate.Estimate(s, estimate.Problem{G: G, F: one, Samples: sm}, sol.U, y, estimate.Options{Degree: 8, Friedrichs: cf})
 	if err != nil {
 		t.Fatal(err)
 	}
