@@ -38,6 +38,9 @@ func powerBound(q, lift float64) Bound {
 
 // Weight returns w(ξ) = √(Lift² + |ξ|²).
 func (b Bound) Weight(xi [2]float64) float64 {
+	if b.Lift == 0 {
+		return norm(xi)
+	}
 	return math.Hypot(b.Lift, norm(xi))
 }
 
