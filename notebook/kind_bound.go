@@ -193,7 +193,7 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 	add("dual_majorant", r.Dual.Value, lab, "μ*(y*) = ∫ D_G(∇u, y*) ≤ dual_majorant")
 	add("norm_bound", r.Norm.Value, lab, fmt.Sprintf("‖∇(u − v)‖ in L^%g ≤ norm_bound", p.Alpha))
 	add("energy_low", r.Energy-r.Majorant.Value, lab, "J(u) ≥ J(v) − majorant")
-	add("discrete_energy", r.Energy, Estimate, fmt.Sprintf("J(v), quadrature of degree %d", r.Degree))
+	add("discrete_energy", r.Energy, Estimate, fmt.Sprintf("J(v): ∫ G(∇v) exactly, ∫ f v by a rule of degree %d", r.Quadrature.ResidualDegree))
 	add("gap_integral", r.D, Estimate, "∫ D_G(∇v, y*), quadrature")
 	add("residual_term", r.R.Value, lab, fmt.Sprintf("R in ∫ r(u − v) ≤ R ‖∇(u − v)‖, %s form", r.Form))
 	// θ is a parameter of the inequality, not a bound of anything.
