@@ -156,7 +156,11 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 func boundSamples(sol *Solution, degree int) (*estimate.Samples, error) {
 	p := sol.Problem
 	if r := sol.Result; r != nil && r.Load != nil {
-		return estimate.SamplesOf(sol.Space, p.Source(), r.LoadDegree, r.Load)
+		if sm, err := estimate.SamplesOf(sol.Space, p.Source(), r.LoadDegree, r.Load); err == nil {
+			return sm, nil
+		}
+		// A load rule the bounds cannot use (negative weights): sample f
+		// at the bounds' own rule instead.
 	}
 	return estimate.NewSamples(sol.Space, p.Source(), degree)
 }
