@@ -33,6 +33,10 @@ type AdaptOptions struct {
 	Share float64
 	// Progress, if set, is called after each mesh with its step.
 	Progress func(AdaptStep)
+	// Samples, if set, gives the samples of f on each mesh (typically the
+	// solver's, kept by SolveFunc) for the bounds; nil, or samples of
+	// another mesh, means the bounds evaluate f themselves.
+	Samples func(s *fem.P1) *Samples
 }
 
 // AdaptStep is one mesh of the adaptive loop with its solution and bounds.
@@ -94,7 +98,13 @@ func Adapt(ctx context.Context, m0 *mesh.Mesh, p Problem, solve SolveFunc, flux 
 		if err != nil {
 			return run, fmt.Errorf("adaptive loop, step %d (%d cells): flux: %w", step, m.NumCells(), err)
 		}
-		r, err := Estimate(s, p, v, y, opt.Options)
+		pk := p
+		if opt.Samples != nil {
+			if sm := opt.Samples(s); sm.On(s) {
+				pk.Samples = sm
+			}
+		}
+		r, err := Estimate(s, pk, v, y, opt.Options)
 		if err != nil {
 			return run, fmt.Errorf("adaptive loop, step %d (%d cells): %w", step, m.NumCells(), err)
 		}

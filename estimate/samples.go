@@ -112,10 +112,13 @@ func (sm *Samples) Source() Source {
 	}
 }
 
+// On reports whether the samples belong to the mesh of s (false for nil).
+func (sm *Samples) On(s *fem.P1) bool { return sm != nil && s != nil && sm.s.Mesh == s.Mesh }
+
 // cell returns the samples of cell k when they belong to the mesh of s,
 // else nil.
 func (sm *Samples) cell(s *fem.P1, k int) []float64 {
-	if sm == nil || sm.s.Mesh != s.Mesh {
+	if !sm.On(s) {
 		return nil
 	}
 	nq := len(sm.lams)

@@ -60,6 +60,7 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 	tol, maxNewton := in.Number("tolerance"), in.Int("max_newton")
 	var prevMesh *mesh.Mesh
 	var prevV []float64
+	var samples *estimate.Samples
 	solve := func(ctx context.Context, s *fem.P1) ([]float64, error) {
 		o := nonlinear.Options{Tol: tol, MaxIter: maxNewton}
 		if m := s.Mesh; prevMesh != nil && m.Coarse == prevMesh && len(m.Parents) == m.NumNodes() {
@@ -75,16 +76,28 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 			return nil, err
 		}
 		prevMesh, prevV = s.Mesh, r.U
+		// The solver's samples of f serve the flux and the bounds on this
+		// mesh, as in the bound cell.
+		samples = nil
+		if r.Load != nil {
+			samples, _ = estimate.SamplesOf(s, src, r.LoadDegree, r.Load)
+		}
 		return r.U, nil
 	}
 	eo := estimate.EquilibrateOptions{Order: in.Int("order"), Newton: in.Int("newton"), Degree: in.Int("degree")}
 	flux := func(ctx context.Context, s *fem.P1, v []float64) (estimate.Flux, error) {
+		if samples.On(s) {
+			o := eo
+			o.Degree = samples.Degree
+			return estimate.Equilibrate(ctx, s, p.G, v, samples.Source(), o)
+		}
 		return estimate.Equilibrate(ctx, s, p.G, v, estimate.FuncSource(s.Mesh, p.Source()), eo)
 	}
 	maxSteps := in.Int("max_steps")
 	run, err := estimate.Adapt(c.Context(), m0, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet()}, solve, flux,
 		estimate.AdaptOptions{Options: estimate.Options{Degree: in.Int("degree"), Friedrichs: cf}, Target: in.Number("target"),
 			MaxCells: in.Int("max_cells"), MaxSteps: maxSteps, Share: in.Number("share"),
+			Samples: func(*fem.P1) *estimate.Samples { return samples },
 			Progress: func(st estimate.AdaptStep) {
 				c.Progress(float64(st.Step+1)/float64(maxSteps), fmt.Sprintf("mesh %d: %d unknowns, majorant %.3g", st.Step, st.Unknowns, st.Result.Majorant.Value))
 			}})
