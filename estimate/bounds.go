@@ -26,9 +26,10 @@ type Problem struct {
 	// boundary edge (then a P1 v can match it exactly); nil means the
 	// caller asserts that v carries the exact Dirichlet data.
 	Dirichlet func(x, y float64) float64
-	// Samples, when set, are F at the points of the quadrature rule (see
-	// NewSamples), shared with the flux projection; they are used when
-	// their space and degree match, after a spot check that they hold F.
+	// Samples, when set, are F at the points of a quadrature rule (the
+	// solver's load samples, SamplesOf, or NewSamples), shared with the flux
+	// projection: on their mesh, after a spot check that they hold F, the
+	// terms with f are integrated on their rule and read F there.
 	Samples *Samples
 }
 
@@ -108,6 +109,17 @@ func cellPoint(dim int, p [2]float64) (lam [3]float64, scale float64) {
 	return [3]float64{1 - p[0] - p[1], p[0], p[1]}, 2
 }
 
+// refPoints returns the barycentric coordinates of the points of r and
+// their weights times the reference measure (weights that sum to 1).
+func refPoints(dim int, r fem.Rule) (lam [][3]float64, w []float64) {
+	lam, w = make([][3]float64, r.Len()), make([]float64, r.Len())
+	for i, pt := range r.Points {
+		l, scale := cellPoint(dim, pt)
+		lam[i], w[i] = l, r.Weights[i]*scale
+	}
+	return lam, w
+}
+
 func physical(s *fem.P1, k int, lam [3]float64) (x, y float64) {
 	c := s.Mesh.Cells[k]
 	for a := range s.Mesh.Dim + 1 {
@@ -142,20 +154,14 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	s.Gradient(v, t.grad)
 	rule := s.Rule(degree)
 	nq := rule.Len()
-	lams := make([][3]float64, nq)
-	wref := make([]float64, nq)
-	for q, pt := range rule.Points {
-		var scale float64
-		lams[q], scale = cellPoint(s.Mesh.Dim, pt)
-		wref[q] = rule.Weights[q] * scale
-	}
+	lams, wref := refPoints(s.Mesh.Dim, rule)
 	ybuf := make([][2]float64, nq)
 	dbuf := make([]float64, nq)
 	// The terms with f (the residual norms and ∫ f v) use the rule of the
 	// samples when they are given (often the solver's load points, so that
 	// f is not evaluated again), else the same rule as the gap.
 	samples, rdeg := p.Samples, degree
-	if samples.cell(s, 0) == nil {
+	if !samples.On(s) {
 		samples = nil
 	} else if err := samples.check(p.F); err != nil {
 		return nil, err
@@ -163,22 +169,15 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 		rdeg = samples.Degree
 	}
 	rrule, rlams, rwref := rule, lams, wref
+	rybuf, rdbuf := ybuf, dbuf
 	if rdeg != degree {
 		rrule = s.Rule(rdeg)
-		rlams, rwref = make([][3]float64, rrule.Len()), make([]float64, rrule.Len())
-		for q, pt := range rrule.Points {
-			var scale float64
-			rlams[q], scale = cellPoint(s.Mesh.Dim, pt)
-			rwref[q] = rrule.Weights[q] * scale
-		}
+		rlams, rwref = refPoints(s.Mesh.Dim, rrule)
+		rybuf, rdbuf = make([][2]float64, rrule.Len()), make([]float64, rrule.Len())
 	}
 	rnq := rrule.Len()
 	rbuf := make([]float64, rnq)
 	wbuf := make([]float64, rnq)
-	rybuf, rdbuf := ybuf, dbuf
-	if rdeg != degree {
-		rybuf, rdbuf = make([][2]float64, rnq), make([]float64, rnq)
-	}
 	gp := newGapper(p.G)
 	pc := newPower(conj)
 	dim := s.Mesh.Dim
@@ -322,7 +321,7 @@ type Quadrature struct {
 	// with f (residual norms, ∫ f v): the samples' rule when Shared (f read
 	// from Problem.Samples), else the base rule.
 	ResidualDegree, ResidualPoints int
-	Shared                         bool
+	Shared                         bool // f read from Problem.Samples
 	// Subdivided counts the cells where ∫D_G was computed by adaptive
 	// subdivision (y* near zero somewhere in the cell); Depth is the deepest
 	// level reached and ExtraPoints the number of points this cost.

@@ -183,12 +183,7 @@ func exactTermsOn(s *fem.P1, G convex.Potential, m *manufactured, f func(x, y fl
 		for _, sc := range subs {
 			for q, pt := range rule.Points {
 				ref, scale := cellPoint(s.Mesh.Dim, pt)
-				var lam [3]float64
-				for a := range s.Mesh.Dim + 1 {
-					for b := range s.Mesh.Dim + 1 {
-						lam[b] += ref[a] * sc[a][b]
-					}
-				}
+				lam := sc.point(s.Mesh.Dim+1, ref)
 				w := rule.Weights[q] * scale * s.Area[k] * frac
 				x, yy := physical(s, k, lam)
 				gu := m.grad(x, yy)

@@ -158,6 +158,17 @@ type simplex [3][3]float64
 
 var unitSimplex = simplex{{1, 0, 0}, {0, 1, 0}, {0, 0, 1}}
 
+// point maps the barycentric coordinates ref on the sub-cell (nv vertices)
+// to barycentric coordinates on its mesh cell.
+func (sc simplex) point(nv int, ref [3]float64) (lam [3]float64) {
+	for a := range nv {
+		for b := range nv {
+			lam[b] += ref[a] * sc[a][b]
+		}
+	}
+	return lam
+}
+
 func mid(a, b [3]float64) [3]float64 {
 	return [3]float64{(a[0] + b[0]) / 2, (a[1] + b[1]) / 2, (a[2] + b[2]) / 2}
 }
@@ -215,12 +226,7 @@ func (q *cellQuad) on(k int, g [2]float64, sc simplex, frac float64) (out float6
 	nv := q.dim + 1
 	for i, pt := range q.rule.Points {
 		ref, scale := cellPoint(q.dim, pt)
-		var lam [3]float64
-		for a := range nv {
-			for b := range nv {
-				lam[b] += ref[a] * sc[a][b]
-			}
-		}
+		lam := sc.point(nv, ref)
 		ys, _ := q.y.At(k, lam)
 		out += q.rule.Weights[i] * scale * q.gp.gap(g, ys)
 	}

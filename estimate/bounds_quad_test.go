@@ -86,12 +86,7 @@ func TestChildren(t *testing.T) {
 				for _, sc := range gc[:gn] {
 					for i, pt := range rule.Points {
 						ref, scale := cellPoint(dim, pt)
-						var lam [3]float64
-						for a := range dim + 1 {
-							for b := range dim + 1 {
-								lam[b] += ref[a] * sc[a][b]
-							}
-						}
+						lam := sc.point(dim+1, ref)
 						sum += rule.Weights[i] * scale * math.Pow(lam[0], 4) * lam[1] * lam[1] / float64(n*gn)
 					}
 				}
@@ -193,12 +188,7 @@ func TestQuadratureSafeguard(t *testing.T) {
 						for _, sc := range subs {
 							for q, pt := range rule.Points {
 								ref, scale := cellPoint(2, pt)
-								var lam [3]float64
-								for a := range 3 {
-									for b := range 3 {
-										lam[b] += ref[a] * sc[a][b]
-									}
-								}
+								lam := sc.point(3, ref)
 								w := rule.Weights[q] * scale * s.Area[k] / float64(len(subs))
 								ys, _ := y.At(k, lam)
 								d += w * convex.Gap(G, grad[k], ys)
@@ -264,12 +254,7 @@ func referenceGap(s *fem.P1, G convex.Potential, grad [][2]float64, y Flux, tol 
 		var out float64
 		for q, pt := range rule.Points {
 			ref, scale := cellPoint(2, pt)
-			var lam [3]float64
-			for a := range 3 {
-				for b := range 3 {
-					lam[b] += ref[a] * sc[a][b]
-				}
-			}
+			lam := sc.point(3, ref)
 			ys, _ := y.At(k, lam)
 			out += rule.Weights[q] * scale * convex.Gap(G, grad[k], ys)
 		}

@@ -143,12 +143,7 @@ type Equilibrated struct {
 // At returns y*(x) and div y*(x) at the point of cell k with barycentric
 // coordinates lam. It does not allocate.
 func (e *Equilibrated) At(k int, lam [3]float64) (y [2]float64, div float64) {
-	c := &e.coef[k]
-	w := [6]float64{lam[0] * lam[0], lam[1] * lam[1], lam[2] * lam[2], lam[1] * lam[2], lam[0] * lam[2], lam[0] * lam[1]}
-	for i := range 6 {
-		y[0] += w[i] * c[i][0]
-		y[1] += w[i] * c[i][1]
-	}
+	y = quadForm(&e.coef[k], lam)
 	d := &e.div[k]
 	return y, lam[0]*d[0] + lam[1]*d[1] + lam[2]*d[2]
 }

@@ -22,18 +22,23 @@ func (a *Averaged) cellAt(k int, lams [][3]float64, ys [][2]float64, divs []floa
 }
 
 func (e *Equilibrated) cellAt(k int, lams [][3]float64, ys [][2]float64, divs []float64) {
-	c := e.coef[k]
+	c := &e.coef[k]
 	d := e.div[k]
 	for q, lam := range lams {
-		w := [6]float64{lam[0] * lam[0], lam[1] * lam[1], lam[2] * lam[2], lam[1] * lam[2], lam[0] * lam[2], lam[0] * lam[1]}
-		var y [2]float64
-		for i := range 6 {
-			y[0] += w[i] * c[i][0]
-			y[1] += w[i] * c[i][1]
-		}
-		ys[q] = y
+		ys[q] = quadForm(c, lam)
 		divs[q] = lam[0]*d[0] + lam[1]*d[1] + lam[2]*d[2]
 	}
+}
+
+// quadForm evaluates Σ_i λ_i² C_i + Σ_{i<j} λ_i λ_j C_ij, the storage of an
+// Equilibrated flux on one cell, at lam.
+func quadForm(c *[6][2]float64, lam [3]float64) (y [2]float64) {
+	w := [6]float64{lam[0] * lam[0], lam[1] * lam[1], lam[2] * lam[2], lam[1] * lam[2], lam[0] * lam[2], lam[0] * lam[1]}
+	for i := range 6 {
+		y[0] += w[i] * c[i][0]
+		y[1] += w[i] * c[i][1]
+	}
+	return y
 }
 
 // atPoints evaluates y at the points lams of cell k, by cellAt when y has

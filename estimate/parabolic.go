@@ -164,15 +164,13 @@ type Parabolic struct {
 	tdk    []float64
 	// y* at the space rule's points of one cell at the step's ends, and
 	// x^α for the norms of ∇v
-	ya, yb   [][2]float64
-	ydiv     []float64
-	powAlpha power
+	yStart, yEnd [][2]float64
+	ydiv         []float64
+	powAlpha     power
 	// split says that the gap of a flux constant in time is summed in its
-	// separated form (power potential, α ≠ 2); dualPow is x^{α'} and pwSum
-	// the sum of the space rule's weights
+	// separated form (power potential, α ≠ 2); dualPow is x^{α'}
 	split   bool
 	dualPow power
-	pwSum   float64
 	rsums   [3]slabSums
 	// f at the space rule's points at two times (loadCache); shareLoad
 	// says the flux projection uses the same rule and can fill them
@@ -305,12 +303,9 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 	b.tsums, b.tnorms = make([]slabSums, nt), make([]float64, nt*len(b.nb.bounds))
 	b.twt, b.tdk = make([]float64, nt), make([]float64, nt)
 	b.tg, b.tgc = make([][2]float64, nt), make([]gapCell, nt)
-	b.ya, b.yb, b.ydiv = make([][2]float64, len(b.lam)), make([][2]float64, len(b.lam)), make([]float64, len(b.lam))
+	b.yStart, b.yEnd, b.ydiv = make([][2]float64, len(b.lam)), make([][2]float64, len(b.lam)), make([]float64, len(b.lam))
 	b.powAlpha = newPower(alpha)
 	b.dualPow = newPower(b.conj)
-	for _, w := range b.pw {
-		b.pwSum += w
-	}
 	b.split = b.gp.power && !b.exactGap
 	if e := o.Exact; e != nil {
 		if e.U == nil || e.Grad == nil {
@@ -407,17 +402,6 @@ func divAt(y Flux, k int, lam [3]float64) float64 {
 	}
 	_, div := y.At(k, lam)
 	return div
-}
-
-// refPoints returns the barycentric coordinates of the points of r and
-// their weights times the reference measure (weights that sum to 1).
-func refPoints(dim int, r fem.Rule) (lam [][3]float64, w []float64) {
-	lam, w = make([][3]float64, r.Len()), make([]float64, r.Len())
-	for i, pt := range r.Points {
-		l, scale := cellPoint(dim, pt)
-		lam[i], w[i] = l, r.Weights[i]*scale
-	}
-	return lam, w
 }
 
 // powAbs returns |x|^q with the common q = 2, 3/2 (α = 3) and 3 (α = 3/2)
@@ -645,9 +629,9 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 		if b.watchY {
 			ys = b.samples[k]
 		}
-		atPoints(yb, k, b.lam, b.yb, b.ydiv)
+		atPoints(yb, k, b.lam, b.yEnd, b.ydiv)
 		if ya != yb {
-			atPoints(ya, k, b.lam, b.ya, b.ydiv)
+			atPoints(ya, k, b.lam, b.yStart, b.ydiv)
 		}
 		if ya == yb && b.split {
 			// y* constant in time and ∇v constant in space: D_G = G(∇v(t))
@@ -660,9 +644,9 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 			var ysum [2]float64
 			for i := range np {
 				w := b.pw[i] * area
-				y := b.yb[i]
+				y := b.yEnd[i]
 				sy := math.Sqrt(y[0]*y[0] + y[1]*y[1])
-				gstar += w * b.dualPow.of(sy) / b.conj
+				gstar += w * b.dualPow.of(sy)
 				ysum[0] += w * y[0]
 				ysum[1] += w * y[1]
 				mag += w * sy
@@ -670,33 +654,31 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 					ys = append(ys, y)
 				}
 			}
-			wsum := area * b.pwSum
+			gstar /= b.conj
 			eps := float64(np+8) * 0x1p-52
 			for iq := range b.tx {
 				g := gs[iq]
-				gv := wsum * b.powAlpha.of(gc[iq].t) / b.alpha
+				gv := area * b.powAlpha.of(gc[iq].t) / b.alpha
 				d := gv + gstar - (g[0]*ysum[0] + g[1]*ysum[1])
 				dk[iq] = max(d, 0) + eps*(gv+gstar+gc[iq].t*mag)
 			}
-		}
-		for i := range np {
-			if ya == yb && b.split {
-				break
-			}
-			w := b.pw[i] * area
-			y1 := b.yb[i]
-			y0 := y1
-			if ya != yb {
-				y0 = b.ya[i]
-			}
-			for iq, sq := range b.tx {
-				y := y1
+		} else {
+			for i := range np {
+				w := b.pw[i] * area
+				y1 := b.yEnd[i]
+				y0 := y1
 				if ya != yb {
-					y = [2]float64{(1-sq)*y0[0] + sq*y1[0], (1-sq)*y0[1] + sq*y1[1]}
+					y0 = b.yStart[i]
 				}
-				dk[iq] += w * b.gp.at(&gc[iq], y, math.Sqrt(y[0]*y[0]+y[1]*y[1]))
-				if b.watchY {
-					ys = append(ys, y)
+				for iq, sq := range b.tx {
+					y := y1
+					if ya != yb {
+						y = [2]float64{(1-sq)*y0[0] + sq*y1[0], (1-sq)*y0[1] + sq*y1[1]}
+					}
+					dk[iq] += w * b.gp.at(&gc[iq], y, math.Sqrt(y[0]*y[0]+y[1]*y[1]))
+					if b.watchY {
+						ys = append(ys, y)
+					}
 				}
 			}
 		}

@@ -71,12 +71,7 @@ func (q *slabQuad) apply(k int, p prism) (out [slabTerms]float64) {
 		var part [slabTerms]float64
 		for i, pt := range q.rule.Points {
 			ref, scale := cellPoint(q.dim, pt)
-			var lam [3]float64
-			for a := range nv {
-				for b := range nv {
-					lam[b] += ref[a] * p.v[a][b]
-				}
-			}
+			lam := simplex(p.v).point(nv, ref)
 			var val [slabTerms]float64
 			q.fn(k, lam, s, &val)
 			w := q.rule.Weights[i] * scale

@@ -29,29 +29,17 @@ type Samples struct {
 
 // NewSamples evaluates f at the points of the rule of the given degree
 // (0: DefaultDegree; 3 and 7 are raised as in EvaluateTerms) on every
-// cell of s. A value that is not finite is an error naming the point.
+// cell of s, as the solver samples its load (fem.P1.Sample). A value that
+// is not finite is an error naming the point.
 func NewSamples(s *fem.P1, f func(x, y float64) float64, degree int) (*Samples, error) {
 	if s == nil || f == nil {
 		return nil, errors.New("source samples: need a P1 space and a source f")
 	}
 	degree = positiveDegree(degree)
 	rule := s.Rule(degree)
-	nq := rule.Len()
-	sm := &Samples{Degree: degree, s: s, f: f, lams: make([][3]float64, nq), vals: make([]float64, s.Mesh.NumCells()*nq)}
-	for q, pt := range rule.Points {
-		sm.lams[q], _ = cellPoint(s.Mesh.Dim, pt)
-	}
-	for k := range s.Mesh.Cells {
-		for q, lam := range sm.lams {
-			x, y := physical(s, k, lam)
-			v := f(x, y)
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("source samples: f is %g at (%g, %g) in cell %d; it must be finite", v, x, y, k)
-			}
-			sm.vals[k*nq+q] = v
-		}
-	}
-	return sm, nil
+	vals := make([]float64, s.Mesh.NumCells()*rule.Len())
+	s.Sample(f, rule, vals)
+	return SamplesOf(s, f, degree, vals)
 }
 
 // SamplesOf wraps values of f computed elsewhere — the solver's load
@@ -71,10 +59,8 @@ func SamplesOf(s *fem.P1, f func(x, y float64) float64, degree int, vals []float
 	if len(vals) != s.Mesh.NumCells()*nq {
 		return nil, fmt.Errorf("source samples: %d values for %d cells × %d points", len(vals), s.Mesh.NumCells(), nq)
 	}
-	sm := &Samples{Degree: degree, s: s, f: f, lams: make([][3]float64, nq), vals: vals}
-	for q, pt := range rule.Points {
-		sm.lams[q], _ = cellPoint(s.Mesh.Dim, pt)
-	}
+	sm := &Samples{Degree: degree, s: s, f: f, vals: vals}
+	sm.lams, _ = refPoints(s.Mesh.Dim, rule)
 	for i, v := range vals {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			k, q := i/nq, i%nq

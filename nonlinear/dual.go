@@ -53,14 +53,9 @@ func (sv *solver) primalDual(ctx context.Context, lv *level, G convex.Potential,
 	}
 	eta := 1e-4
 	for it := 0; ; it++ {
-		if err := ctx.Err(); err != nil {
-			return false, fmt.Errorf("newton: stopped on level %d after %d steps: %w", lv.index, len(sv.hist), err)
-		}
-		gnorm, ref := lv.residual(G, w, lv.g)
-		res := gnorm / ref
-		if math.IsNaN(gnorm) || math.IsNaN(J) {
-			sv.reason = fmt.Sprintf("the energy or residual is NaN on level %d; check f, the Dirichlet data and the potential near the current gradients", lv.index)
-			return false, nil
+		gnorm, res, ok, err := sv.stepStart(ctx, lv, G, w, J)
+		if !ok {
+			return false, err
 		}
 		if gnorm == 0 {
 			sv.record(lv, Step{Energy: J, Residual: res})

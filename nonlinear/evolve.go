@@ -144,18 +144,14 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 	// One level for all steps: the mesh, hence space, patterns, multigrid
 	// and mass matrix, do not change.
 	cache := &levelCache{}
-	var ld *loadSamples
-	if e.F != nil {
-		if ld, err = newLoadSamples(m, opt.Newton.LoadDegree); err != nil {
-			return nil, err
-		}
-	}
 	for n := 1; n < len(times); n++ {
 		t0, t1 := times[n-1], times[n]
 		tau := t1 - t0
 		p := Problem{G: e.G, Mass: 1 / tau, Ref: prev}
 		if e.F != nil {
-			p.F = ld.at(e.F, t1)
+			// The solver samples f once per step at its load points
+			// (Result.Load), which Load hands on to the bounds.
+			p.F = func(x, y float64) float64 { return e.F(x, y, t1) }
 		}
 		if e.Dirichlet != nil {
 			p.Dirichlet = func(x, y float64) float64 { return e.Dirichlet(x, y, t1) }
@@ -178,8 +174,8 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 		}
 		res.Newton += r.Newton
 		res.CG += r.CG
-		if opt.Load != nil && ld != nil {
-			opt.Load(t1, ld.degree, ld.vals)
+		if opt.Load != nil && r.Load != nil {
+			opt.Load(t1, r.LoadDegree, r.Load)
 		}
 		if step != nil {
 			if err := step(ctx, t0, t1, prev, r.U); err != nil {

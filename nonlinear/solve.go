@@ -367,6 +367,22 @@ func rms(lv *level) float64 {
 	return math.Sqrt(s / a)
 }
 
+// stepStart begins a Newton step: it stops (ok false) when ctx is done
+// (with its error) or the energy or residual is NaN (sv.reason says so),
+// and otherwise returns the residual norm on the free nodes (into lv.g) and
+// its size relative to the load and internal forces.
+func (sv *solver) stepStart(ctx context.Context, lv *level, G convex.Potential, w []float64, J float64) (gnorm, res float64, ok bool, err error) {
+	if err := ctx.Err(); err != nil {
+		return 0, 0, false, fmt.Errorf("newton: stopped on level %d after %d steps: %w", lv.index, len(sv.hist), err)
+	}
+	gnorm, ref := lv.residual(G, w, lv.g)
+	if math.IsNaN(gnorm) || math.IsNaN(J) {
+		sv.reason = fmt.Sprintf("the energy or residual is NaN on level %d; check f, the Dirichlet data and the potential near the current gradients", lv.index)
+		return gnorm, 0, false, nil
+	}
+	return gnorm, gnorm / ref, true, nil
+}
+
 // newton minimises J with potential G on level lv from w (overwritten) until
 // the relative decrement is below tol and the relative residual below rtol.
 // It returns false when it stopped without convergence (sv.reason says why).
@@ -375,14 +391,9 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 	J, scale := lv.energy(G, w)
 	var prevRes, eta float64
 	for it := 0; ; it++ {
-		if err := ctx.Err(); err != nil {
-			return false, fmt.Errorf("newton: stopped on level %d after %d steps: %w", lv.index, len(sv.hist), err)
-		}
-		gnorm, ref := lv.residual(G, w, lv.g)
-		res := gnorm / ref
-		if math.IsNaN(gnorm) || math.IsNaN(J) {
-			sv.reason = fmt.Sprintf("the energy or residual is NaN on level %d; check f, the Dirichlet data and the potential near the current gradients", lv.index)
-			return false, nil
+		gnorm, res, ok, err := sv.stepStart(ctx, lv, G, w, J)
+		if !ok {
+			return false, err
 		}
 		if it >= sv.o.MaxIter {
 			sv.reason = fmt.Sprintf("no convergence in %d Newton steps on level %d (%d unknowns)", sv.o.MaxIter, lv.index, lv.s.NumFree())

@@ -77,7 +77,8 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 		}
 		prevMesh, prevV = s.Mesh, r.U
 		// The solver's samples of f serve the flux and the bounds on this
-		// mesh, as in the bound cell.
+		// mesh, as in the bound cell; a load rule they cannot use leaves
+		// samples nil, and f is then evaluated where needed.
 		samples = nil
 		if r.Load != nil {
 			samples, _ = estimate.SamplesOf(s, src, r.LoadDegree, r.Load)
