@@ -2,7 +2,7 @@
 GO       ?= go
 WASMPATH := $(shell $(GO) env GOROOT)/lib/wasm
 # Numerical packages: tested natively and compiled to WebAssembly under node.
-NUMERIC  := $(foreach d,expr convex mesh fem nonlinear estimate,$(if $(wildcard $(d)/*.go),./$(d)/...))
+NUMERIC  := $(foreach d,expr convex problem mesh fem nonlinear estimate,$(if $(wildcard $(d)/*.go),./$(d)/...))
 # Raw benchmark outputs for the nonlinear table.
 BENCHOUT := $(or $(TMPDIR),/tmp)
 

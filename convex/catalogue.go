@@ -171,7 +171,7 @@ type regPower struct{ alpha, eps, epsA float64 }
 // RegPower returns the regularised power potential
 // g(t) = ((ε² + t²)^{α/2} − ε^α)/α, α > 1, ε ≥ 0 (ε = 0 is Power(α)). It is
 // the power potential of the vector (ε, ξ) in R^{d+1} minus a constant, so it
-// inherits the power moduli (MATH.md §3). Its conjugate is computed by
+// inherits the power moduli (docs/math.md §3). Its conjugate is computed by
 // safeguarded Newton.
 func RegPower(alpha, epsilon float64) (Potential, error) {
 	if err := checkAlpha("regularised power potential", alpha); err != nil {
@@ -298,7 +298,7 @@ type custom struct {
 // log-spaced from 1e-6) and refuses a g that is NaN/Inf, has g(0) ≠ 0 or
 // g'(0) ≠ 0, is not increasing, not convex (g” < 0 or g' decreasing beyond
 // rounding), or not superlinear (the local exponent 1 + log10(g'(1000)/g'(100))
-// below 1 + (α−1)/4). No modulus is guaranteed (MATH.md §3): Modulus and
+// below 1 + (α−1)/4). No modulus is guaranteed (docs/math.md §3): Modulus and
 // DualModulus are empty and labelled Estimate.
 func Custom(name string, g func(t float64) (g, g1, g2 float64), alpha float64) (Potential, error) {
 	who := "potential " + strconv.Quote(name)

@@ -3,7 +3,7 @@ package convex
 import "math"
 
 // PiAlpha returns π_α = 2π/(α sin(π/α)), the half period of the generalised
-// sine of the one-dimensional α-Laplacian (CHECKS.md item 1); π_2 = π.
+// sine of the one-dimensional α-Laplacian (docs/checks.md item 1); π_2 = π.
 func PiAlpha(alpha float64) float64 {
 	return 2 * math.Pi / (alpha * math.Sin(math.Pi/alpha))
 }
@@ -19,7 +19,7 @@ func FriedrichsWidth(alpha, width float64) float64 {
 
 // PoincareConvex returns diam/((α − 1)^{1/α} π_α), a guaranteed bound (label
 // Guaranteed) of the Poincaré constant in min_c ‖w − c‖_α ≤ C‖∇w‖_α on a
-// convex cell of diameter diam (Ferone, Nitsch & Trombetti 2012; CHECKS.md
+// convex cell of diameter diam (Ferone, Nitsch & Trombetti 2012; docs/checks.md
 // item 5). It holds for the best constant c, not for the mean when α > 6.
 func PoincareConvex(alpha, diam float64) float64 {
 	return FriedrichsWidth(alpha, diam)

@@ -8,7 +8,7 @@ import (
 
 // TestFriedrichsTable: λ_p = (p − 1)(π_p/L)^p and C = L/((p − 1)^{1/p} π_p) on
 // (0, 1) (Bognár & Došlý, Abstract and Applied Analysis 2010, Art. 123975,
-// eqs. (1.1)–(1.2); values of CHECKS.md item 1 [N]); C(p) = C(p').
+// eqs. (1.1)–(1.2); values of docs/checks.md item 1 [N]); C(p) = C(p').
 func TestFriedrichsTable(t *testing.T) {
 	for _, c := range []struct{ p, lambda, C float64 }{
 		{1.5, 5.3187180764, 0.3281925257},
@@ -35,7 +35,7 @@ func TestFriedrichsTable(t *testing.T) {
 			t.Errorf("PoincareConvex(%g, 2.5) = %g, want 2.5 C = %g", c.p, d, 2.5*C)
 		}
 	}
-	// Payne–Weinberger: d/π at α = 2 (CHECKS.md item 5 [M]); π_2 = π.
+	// Payne–Weinberger: d/π at α = 2 (docs/checks.md item 5 [M]); π_2 = π.
 	if got := PoincareConvex(2, 1); math.Abs(got-1/math.Pi) > 1e-16 {
 		t.Errorf("PoincareConvex(2, 1) = %.17g, want 1/π", got)
 	}

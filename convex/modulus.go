@@ -2,7 +2,7 @@ package convex
 
 import "math"
 
-// BoundKind distinguishes the two shapes of modulus (MATH.md §3).
+// BoundKind distinguishes the two shapes of modulus (docs/math.md §3).
 type BoundKind int
 
 const (
@@ -26,9 +26,9 @@ type Bound struct {
 	Lift float64
 }
 
-// powerBound returns the modulus of |ξ|^q/q lifted by eps (MATH.md §3):
-// q ≥ 2: K = c_q/q, c_q = 1/(2^{q−1} − 1) (Lindqvist §10 (I), CHECKS.md 6);
-// q < 2: K = (q − 1)/2 with weight |ξ| + |ζ| (CHECKS.md 7, Hessian bound).
+// powerBound returns the modulus of |ξ|^q/q lifted by eps (docs/math.md §3):
+// q ≥ 2: K = c_q/q, c_q = 1/(2^{q−1} − 1) (Lindqvist §10 (I), docs/checks.md 6);
+// q < 2: K = (q − 1)/2 with weight |ξ| + |ζ| (docs/checks.md 7, Hessian bound).
 func powerBound(q, lift float64) Bound {
 	if q >= 2 {
 		return Bound{Kind: PowerBound, Exponent: q, K: 1 / ((math.Pow(2, q-1) - 1) * q)}
@@ -58,7 +58,7 @@ func (b Bound) Lower(xi, zeta [2]float64) float64 {
 }
 
 // Norm turns an integrated error measure μ ≥ ∫ D into a bound X ≥ ‖ξ − ζ‖_q
-// (MATH.md §3), ξ, ζ now fields on Ω.
+// (docs/math.md §3), ξ, ζ now fields on Ω.
 //
 // PowerBound: μ ≥ K X^q, so X = (μ/K)^{1/q}; n is ignored.
 //

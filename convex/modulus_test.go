@@ -35,8 +35,8 @@ func samplePair(rng *rand.Rand) (xi, zeta [2]float64) {
 // TestModulusSampling: the primal modulus D_G(ξ, ∂G(ζ)) ≥ Lower(ξ, ζ) and
 // the dual modulus D_G(ζ, η) ≥ DualLower(η, ∂G(ζ)) on 10^5 pairs per
 // exponent. Constants: c_α = 1/(2^{α−1} − 1) for α ≥ 2 (Lindqvist, Notes on
-// the p-Laplace equation, §10 (I); CHECKS.md item 6) and (α − 1)/2 in D_G
-// scaling, i.e. α(α − 1)/2 for |·|^α, for α < 2 (CHECKS.md item 7).
+// the p-Laplace equation, §10 (I); docs/checks.md item 6) and (α − 1)/2 in D_G
+// scaling, i.e. α(α − 1)/2 for |·|^α, for α < 2 (docs/checks.md item 7).
 func TestModulusSampling(t *testing.T) {
 	n := 100000
 	if testing.Short() {
@@ -99,14 +99,14 @@ func TestModulusSampling(t *testing.T) {
 	}
 }
 
-// TestModulusConstants checks the constants themselves against CHECKS.md and
+// TestModulusConstants checks the constants themselves against docs/checks.md and
 // the sharp constants found by scanning collinear pairs with our Gap.
 func TestModulusConstants(t *testing.T) {
 	for _, c := range []struct {
 		alpha float64
 		kind  BoundKind
 		k     float64 // constant in D_G scaling
-		sharp float64 // best constant in |·|^α scaling, CHECKS.md items 6, 7 [N]
+		sharp float64 // best constant in |·|^α scaling, docs/checks.md items 6, 7 [N]
 	}{
 		{1.1, WeightedBound, 0.05, 0.092549},
 		{1.5, WeightedBound, 0.25, 0.494106},
@@ -120,7 +120,7 @@ func TestModulusConstants(t *testing.T) {
 			t.Errorf("α=%g: bound %+v, want kind %d, K %g", c.alpha, b, c.kind, c.k)
 		}
 		// A constant α − 1 (|·|^α scaling) would be wrong for α < 2: the sharp
-		// value is below it (CHECKS.md item 7).
+		// value is below it (docs/checks.md item 7).
 		if c.alpha < 2 && !(c.alpha*b.K < c.sharp && c.sharp < c.alpha-1) {
 			t.Errorf("α=%g: αK = %g, sharp %g, α−1 = %g: expected αK < sharp < α−1", c.alpha, c.alpha*b.K, c.sharp, c.alpha-1)
 		}
@@ -146,7 +146,7 @@ func TestModulusConstants(t *testing.T) {
 			}
 		}
 		if best < c.sharp*(1-1e-6) || best > c.sharp*(1+1e-4) {
-			t.Errorf("α=%g: scanned best constant %.7g, CHECKS.md %.7g", c.alpha, best, c.sharp)
+			t.Errorf("α=%g: scanned best constant %.7g, docs/checks.md %.7g", c.alpha, best, c.sharp)
 		}
 	}
 	// Dual exponents: α' = α/(α − 1).
@@ -162,7 +162,7 @@ func TestModulusConstants(t *testing.T) {
 }
 
 // TestMonotonicity: (∂G(a) − ∂G(b))·(a − b) ≥ 2^{2−α}|a − b|^α for α ≥ 2
-// (Lindqvist §10 (VII), CHECKS.md item 8), sharp at b = −a; it checks Flux
+// (Lindqvist §10 (VII), docs/checks.md item 8), sharp at b = −a; it checks Flux
 // and bounds the symmetrised modulus from above.
 func TestMonotonicity(t *testing.T) {
 	rng := rand.New(rand.NewPCG(9, 9))
@@ -192,7 +192,7 @@ func TestMonotonicity(t *testing.T) {
 }
 
 func TestQuadraticGapIdentity(t *testing.T) {
-	// MATH.md §2: D_G(ξ, η) = |κξ − η|²/(2κ) for G = κ|ξ|²/2.
+	// docs/math.md §2: D_G(ξ, η) = |κξ − η|²/(2κ) for G = κ|ξ|²/2.
 	rng := rand.New(rand.NewPCG(5, 5))
 	G := must(Quadratic(3.5))
 	for i := 0; i < 1000; i++ {

@@ -114,7 +114,7 @@ func Flux(G Potential, xi [2]float64) [2]float64 {
 }
 
 // Hessian returns the entries xx, xy, yy of
-// D²G(ξ) = g”(|ξ|) n⊗n + (g'(|ξ|)/|ξ|)(I − n⊗n), n = ξ/|ξ| (MATH.md §1).
+// D²G(ξ) = g”(|ξ|) n⊗n + (g'(|ξ|)/|ξ|)(I − n⊗n), n = ξ/|ξ| (docs/math.md §1).
 //
 // The regularisation reg ≥ 0 acts only where |ξ| < reg: there both
 // coefficients are taken at radius reg instead of |ξ|, i.e. g”(reg) along n
@@ -162,7 +162,7 @@ func DualFlux(G Potential, eta [2]float64) [2]float64 {
 }
 
 // Gap returns the compound functional D_G(ξ, η) = G(ξ) + G*(η) − ξ·η ≥ 0
-// evaluated without cancellation (MATH.md §2) as
+// evaluated without cancellation (docs/math.md §2) as
 //
 //	D_G(ξ, η) = d(|ξ|, |η|) + ½|ξ||η| |ξ/|ξ| − η/|η||²,
 //

@@ -7,6 +7,7 @@ import (
 
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // SolveFunc computes the discrete solution v (nodal values, with the
@@ -55,11 +56,11 @@ type AdaptRun struct {
 }
 
 // Adapt runs the loop solve → flux → bounds → bulk marking → newest-vertex
-// bisection (MATH.md §4, local indicators) from m0 until the majorant meets
+// bisection (docs/math.md §4, local indicators) from m0 until the majorant meets
 // the target, the next mesh would exceed the size limit, the step limit is
 // reached or ctx is cancelled (then the steps so far are returned with the
 // context's error).
-func Adapt(ctx context.Context, m0 *mesh.Mesh, p Problem, solve SolveFunc, flux FluxFunc, opt AdaptOptions) (*AdaptRun, error) {
+func Adapt(ctx context.Context, m0 *mesh.Mesh, p *problem.Problem, solve SolveFunc, flux FluxFunc, opt AdaptOptions) (*AdaptRun, error) {
 	if m0 == nil || solve == nil || flux == nil {
 		return nil, errors.New("adaptive loop: need a mesh, a solver and a flux builder")
 	}
@@ -98,13 +99,13 @@ func Adapt(ctx context.Context, m0 *mesh.Mesh, p Problem, solve SolveFunc, flux 
 		if err != nil {
 			return run, fmt.Errorf("adaptive loop, step %d (%d cells): flux: %w", step, m.NumCells(), err)
 		}
-		pk := p
+		eo := opt.Options
 		if opt.Samples != nil {
 			if sm := opt.Samples(s); sm.On(s) {
-				pk.Samples = sm
+				eo.Samples = sm
 			}
 		}
-		r, err := Estimate(s, pk, v, y, opt.Options)
+		r, err := Estimate(s, p, v, y, eo)
 		if err != nil {
 			return run, fmt.Errorf("adaptive loop, step %d (%d cells): %w", step, m.NumCells(), err)
 		}

@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"context"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -19,11 +20,11 @@ func TestAdaptSamples(t *testing.T) {
 	ctx := context.Background()
 	G := must(convex.Power(3))
 	f := func(x, y float64) float64 { return 1 + 0.5*math.Sin(3*x)*y }
-	p := Problem{G: G, F: f}
+	p := problem.Steady(G, f, nil)
 	var samples *Samples
 	stale := 0
 	solve := func(ctx context.Context, s *fem.P1) ([]float64, error) {
-		r, err := nonlinear.Solve(ctx, s.Mesh, nonlinear.Problem{G: G, F: f}, nonlinear.Options{})
+		r, err := nonlinear.Solve(ctx, s.Mesh, problem.Steady(G, f, nil), nonlinear.Options{})
 		if err != nil {
 			return nil, err
 		}

@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"errors"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -12,7 +13,7 @@ import (
 )
 
 // cornerU is u = r^{2/3} sin(2θ/3) on the L-shape, θ ∈ [0, 3π/2]: harmonic,
-// zero on the edges at the re-entrant corner (CHECKS.md item 11, p = 2).
+// zero on the edges at the re-entrant corner (docs/checks.md item 11, p = 2).
 func cornerU(x, y float64) float64 {
 	t := math.Atan2(y, x)
 	if t < 0 {
@@ -151,13 +152,13 @@ func rate(n, mu []float64, minN float64) float64 {
 	return -(k*sxy - sx*sy) / (k*sxx - sx*sx)
 }
 
-// TestAdaptLShape: CHECKS.md item 11 (p = 2, k = 2/3). Uniform refinement
+// TestAdaptLShape: docs/checks.md item 11 (p = 2, k = 2/3). Uniform refinement
 // gives μ ~ h^{4/3} ~ N^{−2/3}; the adaptive loop must restore N^{−1}.
 // Observed: adaptive 0.96 (22 steps to N = 2772), uniform 0.62 (N ≤ 3000).
 func TestAdaptLShape(t *testing.T) {
 	ctx := context.Background()
 	G := must(convex.Power(2))
-	p := Problem{G: G, F: func(_, _ float64) float64 { return 0 }, Dirichlet: cornerU}
+	p := problem.Steady(G, func(_, _ float64) float64 { return 0 }, cornerU)
 	solve, flux := laplaceSolve(cornerU), crBuilder(cornerU)
 	var steps int
 	run, err := Adapt(ctx, must(mesh.LShape(2)), p, solve, flux, AdaptOptions{MaxCells: 6000, Share: 0.4,

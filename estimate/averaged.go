@@ -7,7 +7,7 @@ import (
 	"gapbook/fem"
 )
 
-// Averaged is the averaged flux of MATH.md §5: the continuous piecewise
+// Averaged is the averaged flux of docs/math.md §5: the continuous piecewise
 // linear vector field whose value at each node is the cell-area weighted
 // mean of the cellwise constant ∂G(∇v) over the cells around the node. It
 // is cheap and its residual f + div y* does not vanish, so alone it gives

@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"testing"
 	"time"
@@ -35,7 +36,7 @@ func benchBoundsProblem(b *testing.B, alpha float64, n int) (*mesh.Mesh, convex.
 
 // BenchmarkBounds times flux + bounds (Estimate with the width Friedrichs
 // constant) for the discrete solution of nonlinear.Solve, for each flux of
-// MATH.md §5, with f read from the solver's load samples (SamplesOf) as the
+// docs/math.md §5, with f read from the solver's load samples (SamplesOf) as the
 // notebook's bound cell does. The metric ratio is the fastest flux + bounds
 // run over the fastest of three solves on the same mesh (from scratch:
 // nested iteration, default tolerances) — fastest against fastest, so that
@@ -52,7 +53,7 @@ func BenchmarkBounds(b *testing.B) {
 			for _, n := range []int{64, 128, 256} {
 				b.Run(fmt.Sprintf("flux=%s/p=%g/n=%d", name, alpha, n), func(b *testing.B) {
 					m, G, f, u := benchBoundsProblem(b, alpha, n)
-					p := nonlinear.Problem{G: G, F: f, Dirichlet: u}
+					p := problem.Steady(G, f, u)
 					// The solve is timed three times and the fastest run
 					// kept (wall and CPU time), so that a burst of other
 					// work on the machine does not flatter the ratio.
@@ -68,7 +69,7 @@ func BenchmarkBounds(b *testing.B) {
 						solveCPU = min(solveCPU, cpuSeconds()-cpu)
 					}
 					s := eqMust(fem.NewP1(m))
-					prob := Problem{G: G, F: f}
+					prob := problem.Steady(G, f, nil)
 					cf := eqMust(WidthConstant(m, alpha))
 					var res *Result
 					best, bestCPU, bestFlux := math.Inf(1), math.Inf(1), math.Inf(1)
@@ -80,7 +81,6 @@ func BenchmarkBounds(b *testing.B) {
 						if err != nil {
 							b.Fatal(err)
 						}
-						prob.Samples = sm
 						var y Flux
 						switch name {
 						case "averaged":
@@ -88,7 +88,7 @@ func BenchmarkBounds(b *testing.B) {
 						case "minimised":
 							var y0 *Averaged
 							if y0, err = NewAveraged(s, G, sol.U); err == nil {
-								y, err = Minimise(context.Background(), s, prob, sol.U, y0, MinimiseOptions{Friedrichs: cf})
+								y, err = Minimise(context.Background(), s, prob, sol.U, y0, MinimiseOptions{Friedrichs: cf, Samples: sm})
 							}
 						case "equilibrated", "equilibrated-rt1":
 							order := 0
@@ -101,7 +101,7 @@ func BenchmarkBounds(b *testing.B) {
 							b.Fatal(err)
 						}
 						bestFlux = min(bestFlux, time.Since(t0).Seconds())
-						if res, err = Estimate(s, prob, sol.U, y, Options{Friedrichs: cf}); err != nil {
+						if res, err = Estimate(s, prob, sol.U, y, Options{Friedrichs: cf, Samples: sm}); err != nil {
 							b.Fatal(err)
 						}
 						best = min(best, time.Since(t0).Seconds())

@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"testing"
 
 	"gapbook/fem"
@@ -18,7 +19,7 @@ func BenchmarkEvaluateTerms(b *testing.B) {
 		for _, src := range []string{"bench", "cheap"} {
 			b.Run(fmt.Sprintf("flux=%s/f=%s/p=3/n=128", name, src), func(b *testing.B) {
 				m, G, f, u := benchBoundsProblem(b, 3, 128)
-				sol, err := nonlinear.Solve(context.Background(), m, nonlinear.Problem{G: G, F: f, Dirichlet: u}, nonlinear.Options{})
+				sol, err := nonlinear.Solve(context.Background(), m, problem.Steady(G, f, u), nonlinear.Options{})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -35,7 +36,7 @@ func BenchmarkEvaluateTerms(b *testing.B) {
 				var t *Terms
 				cpu := cpuSeconds()
 				for b.Loop() {
-					if t, err = EvaluateTerms(s, Problem{G: G, F: f}, sol.U, y, 0); err != nil {
+					if t, err = EvaluateTerms(s, problem.Steady(G, f, nil), sol.U, y, 0, nil); err != nil {
 						b.Fatal(err)
 					}
 				}

@@ -8,6 +8,7 @@ import (
 
 	"gapbook/convex"
 	"gapbook/fem"
+	"gapbook/problem"
 )
 
 // DefaultDegree is the quadrature degree of the cell integrals when
@@ -15,26 +16,8 @@ import (
 // smooth data up to degree 8, the highest symmetric Dunavant rule.
 const DefaultDegree = 8
 
-// Problem is the elliptic problem (E) of MATH.md §4: minimise
-// ∫ G(∇w) − f w over w with w = u_D on ∂Ω.
-type Problem struct {
-	// G is the potential; its growth α fixes the norms of the bounds.
-	G convex.Potential
-	// F is the source f(x, y) (y = 0 in 1-D).
-	F func(x, y float64) float64
-	// Dirichlet is u_D, used only to check whether it is linear on every
-	// boundary edge (then a P1 v can match it exactly); nil means the
-	// caller asserts that v carries the exact Dirichlet data.
-	Dirichlet func(x, y float64) float64
-	// Samples, when set, are F at the points of a quadrature rule (the
-	// solver's load samples, SamplesOf, or NewSamples), shared with the flux
-	// projection: on their mesh, after a spot check that they hold F, the
-	// terms with f are integrated on their rule and read F there.
-	Samples *Samples
-}
-
 // Number is a computed value with its trust label and, for guaranteed
-// numbers, the assumptions it rests on (MATH.md §8).
+// numbers, the assumptions it rests on (docs/math.md §8).
 type Number struct {
 	Value       float64
 	Label       convex.Label
@@ -55,6 +38,11 @@ type Options struct {
 	// Modulus replaces the potential's own modulus, e.g. an estimated one for
 	// a user formula; every number that uses it takes its label.
 	Modulus *convex.Modulus
+	// Samples, when set, are f at the points of a quadrature rule (the
+	// solver's load samples, SamplesOf, or NewSamples), shared with the flux
+	// projection: on their mesh, after a spot check that they hold f, the
+	// terms with f are integrated on their rule and read f there.
+	Samples *Samples
 }
 
 // ResidualForm says which of the two bounds of ∫ r(u − v) was smaller.
@@ -76,7 +64,7 @@ func (f ResidualForm) String() string {
 }
 
 // Terms are the computable terms of the error identity (E-ID) for a P1
-// function v and a flux y*, with residual r = f + div y* (MATH.md §4).
+// function v and a flux y*, with residual r = f + div y* (docs/math.md §4).
 type Terms struct {
 	// Alpha is the growth α of G, Conj = α' its conjugate exponent.
 	Alpha, Conj float64
@@ -137,8 +125,15 @@ func physical(s *fem.P1, k int, lam [3]float64) (x, y float64) {
 // subdivision (bounds_quad.go), and the estimated remaining error of those
 // cells is added to D and to the residual norms as a safety margin (see
 // Quadrature).
-func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Terms, error) {
-	if s == nil || p.G == nil || p.F == nil || y == nil {
+//
+// The problem is read at its time T0 (the elliptic problem (E) of
+// docs/math.md §4); samples may be nil.
+func EvaluateTerms(s *fem.P1, p *problem.Problem, v []float64, y Flux, degree int, samples *Samples) (*Terms, error) {
+	if s == nil || p == nil || p.G == nil || y == nil {
+		return nil, errors.New("estimate: need a P1 space, a potential, a source f and a flux")
+	}
+	f := p.SourceAt(p.T0)
+	if f == nil {
 		return nil, errors.New("estimate: need a P1 space, a potential, a source f and a flux")
 	}
 	if len(v) != s.NumNodes() {
@@ -160,10 +155,10 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 	// The terms with f (the residual norms and ∫ f v) use the rule of the
 	// samples when they are given (often the solver's load points, so that
 	// f is not evaluated again), else the same rule as the gap.
-	samples, rdeg := p.Samples, degree
+	rdeg := degree
 	if !samples.On(s) {
 		samples = nil
-	} else if err := samples.check(p.F); err != nil {
+	} else if err := samples.check(f); err != nil {
 		return nil, err
 	} else {
 		rdeg = samples.Degree
@@ -226,7 +221,7 @@ func EvaluateTerms(s *fem.P1, p Problem, v []float64, y Flux, degree int) (*Term
 			if fs != nil {
 				fx = fs[q]
 			} else {
-				fx = p.F(x, yy)
+				fx = f(x, yy)
 			}
 			fv += w * fx * vx
 			r := fx + div
@@ -319,9 +314,9 @@ type Quadrature struct {
 	Degree, Points int
 	// ResidualDegree and ResidualPoints are those of the rule of the terms
 	// with f (residual norms, ∫ f v): the samples' rule when Shared (f read
-	// from Problem.Samples), else the base rule.
+	// from Options.Samples), else the base rule.
 	ResidualDegree, ResidualPoints int
-	Shared                         bool // f read from Problem.Samples
+	Shared                         bool // f read from Options.Samples
 	// Subdivided counts the cells where ∫D_G was computed by adaptive
 	// subdivision (y* near zero somewhere in the cell); Depth is the deepest
 	// level reached and ExtraPoints the number of points this cost.
@@ -355,7 +350,7 @@ func (q Quadrature) String() string {
 	return s
 }
 
-// Result holds the bounds of MATH.md §4 for one v and one flux.
+// Result holds the bounds of docs/math.md §4 for one v and one flux.
 type Result struct {
 	*Terms
 	// R bounds ∫ r(u − v) ≤ R ‖∇(u − v)‖_α; Form says which form won.
@@ -383,11 +378,11 @@ type Result struct {
 
 // Estimate computes the terms of (E-ID) and the bounds built on them:
 // the residual bound R = min(C_F,α ‖r‖_{α'}, R_osc + C_F,α ‖Π0 r‖_{α'}), the
-// largest-root majorant μ̄ (MATH.md §4), the dual and norm bounds, θ and the
+// largest-root majorant μ̄ (docs/math.md §4), the dual and norm bounds, θ and the
 // Young form, and local indicators. The numbers are labelled guaranteed only
 // when the Friedrichs constant and the modulus are.
-func Estimate(s *fem.P1, p Problem, v []float64, y Flux, opt Options) (*Result, error) {
-	t, err := EvaluateTerms(s, p, v, y, opt.Degree)
+func Estimate(s *fem.P1, p *problem.Problem, v []float64, y Flux, opt Options) (*Result, error) {
+	t, err := EvaluateTerms(s, p, v, y, opt.Degree, opt.Samples)
 	if err != nil {
 		return nil, err
 	}
@@ -399,7 +394,7 @@ func Estimate(s *fem.P1, p Problem, v []float64, y Flux, opt Options) (*Result, 
 	if err != nil {
 		return nil, err
 	}
-	if p.Dirichlet != nil && !linearOnBoundary(s, p.Dirichlet) {
+	if uD := p.DirichletAt(p.T0); uD != nil && !linearOnBoundary(s, uD) {
 		res.Assumptions = append(res.Assumptions, "data interpolated on the boundary: the bounds concern the problem with u_D replaced by its piecewise linear interpolant")
 	}
 	return res, nil
@@ -423,7 +418,7 @@ func linearOnBoundary(s *fem.P1, uD func(x, y float64) float64) bool {
 	return true
 }
 
-// normBound is X(μ) of MATH.md §3 for the bounds of a modulus in the growth
+// normBound is X(μ) of docs/math.md §3 for the bounds of a modulus in the growth
 // norm: the smallest of their norm bounds.
 type normBound struct {
 	bounds []convex.Bound
@@ -547,7 +542,7 @@ func (t *Terms) indicators(form ResidualForm, rx, meanPart float64) []float64 {
 
 // YoungForm returns the right side D + R^{α'}/(α'(θc)^{α'−1}) of the Young
 // form (1 − θ)μ + μ* ≤ … for modulus constant c (μ ≥ (c/α) X^α) and
-// θ ∈ (0, 1) (MATH.md §4). Divided by 1 − θ it bounds μ for every θ; its
+// θ ∈ (0, 1) (docs/math.md §4). Divided by 1 − θ it bounds μ for every θ; its
 // minimum over θ is the largest-root majorant.
 func YoungForm(D, R, c, alpha, theta float64) float64 {
 	a := alpha / (alpha - 1)
@@ -582,7 +577,7 @@ func Energy(s *fem.P1, G convex.Potential, f func(x, y float64) float64, v []flo
 }
 
 // Minorant returns μ̲ = max(0, J(v) − J(w)) ≤ μ(v) for any admissible w
-// (MATH.md §4), e.g. the solution on a refined mesh, from the two energies.
+// (docs/math.md §4), e.g. the solution on a refined mesh, from the two energies.
 func Minorant(jv, jw float64) float64 { return math.Max(0, jv-jw) }
 
 // Interval is a labelled interval [Lo, Hi].
@@ -592,7 +587,7 @@ type Interval struct {
 	Assumptions []string
 }
 
-// EnergyInterval returns J(u) ∈ [J(v) − μ̄, J(v) − μ̲] (MATH.md §4) from a
+// EnergyInterval returns J(u) ∈ [J(v) − μ̄, J(v) − μ̲] (docs/math.md §4) from a
 // result and a minorant μ̲.
 func EnergyInterval(r *Result, minorant float64) Interval {
 	return Interval{Lo: r.Energy - r.Majorant.Value, Hi: r.Energy - minorant,
@@ -601,7 +596,7 @@ func EnergyInterval(r *Result, minorant float64) Interval {
 
 // FlowRate turns an energy interval into the interval of Q = ∫u for the
 // power potential of growth α with u_D = 0 and constant f ≠ 0, from
-// J(u) = −f Q/α' (MATH.md §4: ∫ ∂G(∇u)·∇u = α ∫G(∇u) = ∫ f u).
+// J(u) = −f Q/α' (docs/math.md §4: ∫ ∂G(∇u)·∇u = α ∫G(∇u) = ∫ f u).
 func FlowRate(e Interval, alpha, f float64) (Interval, error) {
 	if !(alpha > 1) || f == 0 || math.IsNaN(f) || math.IsInf(f, 0) {
 		return Interval{}, fmt.Errorf("flow rate: need α > 1 and a finite constant f ≠ 0; got α = %g, f = %g", alpha, f)
@@ -634,7 +629,7 @@ func positiveDegree(d int) int {
 // decreases (X(μ)/μ decreases for both modulus types, so s − a − h(s)
 // changes sign once), by bracketing and bisection; the upper end of the
 // final bracket is returned, so the root is never under-estimated. Both the
-// elliptic majorant μ̄ and the space-time majorants (MATH.md §4, §7) are
+// elliptic majorant μ̄ and the space-time majorants (docs/math.md §4, §7) are
 // such roots.
 func largestRoot(a float64, h func(float64) float64) (float64, error) {
 	phi := func(s float64) float64 { return s - a - h(s) }

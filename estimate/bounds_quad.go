@@ -76,7 +76,7 @@ func isPower(G convex.Potential, alpha float64) bool {
 	return true
 }
 
-// gap returns D_G(ξ, η) = d(|ξ|, |η|) + (|ξ||η| − ξ·η) (MATH.md §2).
+// gap returns D_G(ξ, η) = d(|ξ|, |η|) + (|ξ||η| − ξ·η) (docs/math.md §2).
 func (gp *gapper) gap(xi, eta [2]float64) float64 {
 	c := gp.cell(xi)
 	return gp.at(&c, eta, math.Sqrt(eta[0]*eta[0]+eta[1]*eta[1]))

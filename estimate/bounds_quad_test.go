@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -158,7 +159,7 @@ func TestResidualPower(t *testing.T) {
 // pass through zero at the centre and the corners, so |y*|^{α'} is not
 // smooth there. The reference integrals use the collapsed degree-14 rule on
 // 256 sub-cells of every cell; D (with its margin) must not fall below the reference, the
-// majorant not below μ(v), the dual bound not below μ*(y*) (MATH.md §8: no
+// majorant not below μ(v), the dual bound not below μ*(y*) (docs/math.md §8: no
 // tolerance on the guaranteed side).
 func TestQuadratureSafeguard(t *testing.T) {
 	for _, alpha := range []float64{4, 6} {
@@ -176,9 +177,9 @@ func TestQuadratureSafeguard(t *testing.T) {
 				}
 				m := must(mesh.Rectangle(0, 1, 0, 1, 8, 8))
 				s := must(fem.NewP1(m))
-				sol := must(nonlinear.Solve(context.Background(), m, nonlinear.Problem{G: G, F: f}, nonlinear.Options{}))
+				sol := must(nonlinear.Solve(context.Background(), m, problem.Steady(G, f, nil), nonlinear.Options{}))
 				y := must(Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Order: order}))
-				r := must(Estimate(s, Problem{G: G, F: f}, sol.U, y, Options{Friedrichs: must(WidthConstant(m, alpha))}))
+				r := must(Estimate(s, problem.Steady(G, f, nil), sol.U, y, Options{Friedrichs: must(WidthConstant(m, alpha))}))
 				grad := make([][2]float64, m.NumCells())
 				s.Gradient(sol.U, grad)
 				fine := func(levels int) (mu, dual, d float64) {
@@ -226,7 +227,7 @@ func TestQuadratureSafeguard(t *testing.T) {
 				}
 				// Without subdivision the base rule alone misses D by far more
 				// than the safeguard leaves.
-				base := must(EvaluateTerms(s, Problem{G: G, F: f}, sol.U, y, 0))
+				base := must(EvaluateTerms(s, problem.Steady(G, f, nil), sol.U, y, 0, nil))
 				var plain float64
 				rule := fem.Triangle(DefaultDegree)
 				for k := range m.Cells {

@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -37,7 +38,7 @@ var fluxBuilders = []fluxBuilder{
 }
 
 // TestErrorIdentity checks (E-ID) μ(v) + μ*(y*) = ∫D_G(∇v, y*) + ∫ r(u − v)
-// (MATH.md §4; CHECKS.md item 15: an identity, proof by integration by parts)
+// (docs/math.md §4; docs/checks.md item 15: an identity, proof by integration by parts)
 // with the non-equilibrated averaged flux, and that EvaluateTerms' D agrees
 // with the high-order value.
 func TestErrorIdentity(t *testing.T) {
@@ -59,7 +60,7 @@ func TestErrorIdentity(t *testing.T) {
 				if tr.ru == 0 || math.Abs(tr.ru) < 1e-6*scale {
 					t.Errorf("the residual term %g is negligible: the test does not exercise a non-equilibrated flux", tr.ru)
 				}
-				terms := must(EvaluateTerms(s, Problem{G: G, F: f}, v, y, 0))
+				terms := must(EvaluateTerms(s, problem.Steady(G, f, nil), v, y, 0, nil))
 				if math.Abs(terms.D-tr.d) > 1e-7*tr.d {
 					t.Errorf("D = %.12g by degree %d, %.12g by the reference rule", terms.D, terms.Degree, tr.d)
 				}
@@ -69,7 +70,7 @@ func TestErrorIdentity(t *testing.T) {
 }
 
 // TestPragerSynge checks ‖∇(u−v)‖² + ‖∇u − y‖² = ‖∇v − y‖² for div y + f = 0
-// (Prager & Synge, Quart. Appl. Math. 5 (1947); CHECKS.md item 13) with the
+// (Prager & Synge, Quart. Appl. Math. 5 (1947); docs/checks.md item 13) with the
 // equilibrated test flux, and that EvaluateTerms sees a zero residual and
 // D = ½‖∇v − y‖² for G = |ξ|²/2.
 func TestPragerSynge(t *testing.T) {
@@ -85,7 +86,7 @@ func TestPragerSynge(t *testing.T) {
 			if math.Abs(tr.ps[0]+tr.ps[1]-tr.ps[2]) > 1e-10*tr.ps[2] {
 				t.Errorf("Prager–Synge: %.15g + %.15g ≠ %.15g", tr.ps[0], tr.ps[1], tr.ps[2])
 			}
-			terms := must(EvaluateTerms(s, Problem{G: G, F: f}, v, y, 0))
+			terms := must(EvaluateTerms(s, problem.Steady(G, f, nil), v, y, 0, nil))
 			// Tolerance: this y* (trigonometric) is smooth but far from
 			// polynomial on the coarse cells, where the degree-8 rule is off
 			// by up to 1e-7 per cell (either sign; not covered by the margin,
@@ -111,7 +112,7 @@ func TestPragerSynge(t *testing.T) {
 	}
 }
 
-// TestMajorantInvariant is the invariant of MATH.md §5: μ̄ ≥ μ(v) on every
+// TestMajorantInvariant is the invariant of docs/math.md §5: μ̄ ≥ μ(v) on every
 // case of the suite (α × domain × v × flux × mesh size), together with the
 // norm and dual bounds; no tolerance. v is the perturbed interpolant on the
 // coarse mesh and nonlinear.Solve's discrete solution on the finer one (any
@@ -132,7 +133,7 @@ func TestMajorantInvariant(t *testing.T) {
 				// the solver's samples of f (degree 5) in the terms with f.
 				var shared *Samples
 				if level == 1 {
-					sol, err := nonlinear.Solve(context.Background(), msh, nonlinear.Problem{G: G, F: f, Dirichlet: m.u}, nonlinear.Options{})
+					sol, err := nonlinear.Solve(context.Background(), msh, problem.Steady(G, f, m.u), nonlinear.Options{})
 					if err != nil {
 						t.Fatalf("%s/p=%g: %v", d.name, alpha, err)
 					}
@@ -146,14 +147,14 @@ func TestMajorantInvariant(t *testing.T) {
 					if err != nil {
 						t.Fatalf("%s: %v", name, err)
 					}
-					r, err := Estimate(s, Problem{G: G, F: f, Dirichlet: m.u}, v, y, Options{Friedrichs: c})
+					r, err := Estimate(s, problem.Steady(G, f, m.u), v, y, Options{Friedrichs: c})
 					if err != nil {
 						t.Fatalf("%s: %v", name, err)
 					}
 					tr := exactTerms(s, G, m, f, v, y)
 					results := []*Result{r}
 					if shared != nil {
-						rs, err := Estimate(s, Problem{G: G, F: f, Dirichlet: m.u, Samples: shared}, v, y, Options{Friedrichs: c})
+						rs, err := Estimate(s, problem.Steady(G, f, m.u), v, y, Options{Friedrichs: c, Samples: shared})
 						if err != nil {
 							t.Fatalf("%s (shared samples): %v", name, err)
 						}
@@ -195,7 +196,7 @@ func TestMajorantInvariant(t *testing.T) {
 	}
 }
 
-// TestYoungForm checks the Legendre-duality claim of MATH.md §5: the
+// TestYoungForm checks the Legendre-duality claim of docs/math.md §5: the
 // largest root equals the Young form at the reported θ divided by 1 − θ, and
 // no θ on a grid does better (α ≥ 2 type moduli).
 func TestYoungForm(t *testing.T) {
@@ -208,7 +209,7 @@ func TestYoungForm(t *testing.T) {
 		s := must(fem.NewP1(msh))
 		v := perturbed(s, m.u, 0.05, 9)
 		y := must(NewAveraged(s, G, v))
-		r := must(Estimate(s, Problem{G: G, F: f}, v, y, Options{Friedrichs: must(WidthConstant(msh, alpha))}))
+		r := must(Estimate(s, problem.Steady(G, f, nil), v, y, Options{Friedrichs: must(WidthConstant(msh, alpha))}))
 		mu := r.Majorant.Value
 		if math.IsNaN(r.YoungRHS) || !(r.Theta > 0 && r.Theta < 1) {
 			t.Fatalf("p=%g: θ = %g, Young form %g", alpha, r.Theta, r.YoungRHS)
@@ -240,34 +241,34 @@ func TestLabels(t *testing.T) {
 	c := must(WidthConstant(msh, 3))
 	est := c
 	est.Label = convex.Estimate
-	r := must(Estimate(s, Problem{G: G, F: f}, v, y, Options{Friedrichs: est}))
+	r := must(Estimate(s, problem.Steady(G, f, nil), v, y, Options{Friedrichs: est}))
 	for _, n := range []Number{r.Majorant, r.Dual, r.Norm, r.R} {
 		if n.Label != convex.Estimate {
 			t.Errorf("estimated constant: a number is labelled %v", n.Label)
 		}
 	}
 	custom := must(convex.Custom("cubic", func(t float64) (float64, float64, float64) { return t * t * t / 3, t * t, 2 * t }, 3))
-	if _, err := Estimate(s, Problem{G: custom, F: f}, v, y, Options{Friedrichs: c}); err == nil {
+	if _, err := Estimate(s, problem.Steady(custom, f, nil), v, y, Options{Friedrichs: c}); err == nil {
 		t.Error("a custom potential without a modulus gave bounds")
 	}
 	sampled := convex.Modulus{Bounds: G.Modulus().Bounds, Label: convex.Estimate}
-	r = must(Estimate(s, Problem{G: custom, F: f}, v, y, Options{Friedrichs: c, Modulus: &sampled}))
+	r = must(Estimate(s, problem.Steady(custom, f, nil), v, y, Options{Friedrichs: c, Modulus: &sampled}))
 	if r.Majorant.Label != convex.Estimate || r.Label != convex.Estimate {
 		t.Errorf("estimated modulus: majorant labelled %v", r.Majorant.Label)
 	}
 	// Same potential, so the numbers equal those of the guaranteed run.
-	rg := must(Estimate(s, Problem{G: G, F: f}, v, y, Options{Friedrichs: c}))
+	rg := must(Estimate(s, problem.Steady(G, f, nil), v, y, Options{Friedrichs: c}))
 	if math.Abs(rg.Majorant.Value-r.Majorant.Value) > 1e-6*rg.Majorant.Value || rg.Label != convex.Guaranteed {
 		t.Errorf("custom t³/3 majorant %g vs power %g (%v)", r.Majorant.Value, rg.Majorant.Value, rg.Label)
 	}
 	// Dirichlet data that are not linear on boundary edges are reported.
-	r = must(Estimate(s, Problem{G: G, F: f, Dirichlet: func(x, y float64) float64 { return x * x }}, v, y, Options{Friedrichs: c}))
+	r = must(Estimate(s, problem.Steady(G, f, func(x, y float64) float64 { return x * x }), v, y, Options{Friedrichs: c}))
 	if last := r.Assumptions[len(r.Assumptions)-1]; last[:4] != "data" {
 		t.Errorf("nonlinear boundary data not reported: %q", r.Assumptions)
 	}
 }
 
-// TestEnergyAndFlowRate uses the 1-D closed form of CHECKS.md item 9
+// TestEnergyAndFlowRate uses the 1-D closed form of docs/checks.md item 9
 // (f = 1 on (0, 1): u = ((p−1)/p)((1/2)^{p'} − |x − 1/2|^{p'}),
 // ∫u = (1/2)^{p'}/(p'+1), J(u) = −∫u/p'): the energy of the interpolant
 // minus J(u) equals μ(v) computed as ∫ D_G; J(u) lies in the energy interval
@@ -290,7 +291,7 @@ func TestEnergyAndFlowRate(t *testing.T) {
 		// default rule alone under-integrates |y*|^{α'} (1e-4 relative at
 		// p = 4) and the safeguard of EvaluateTerms must subdivide.
 		y := &linearFlux{s: s, f: 1, shift: 0.02}
-		r := must(Estimate(s, Problem{G: G, F: one}, v, y, Options{Friedrichs: must(WidthConstant(msh, p))}))
+		r := must(Estimate(s, problem.Steady(G, one, nil), v, y, Options{Friedrichs: must(WidthConstant(msh, p))}))
 		if r.Quadrature.Subdivided == 0 {
 			t.Errorf("p=%g: the cell where y* vanishes was not subdivided", p)
 		}

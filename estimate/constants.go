@@ -20,12 +20,12 @@ type Constant struct {
 
 // LiuConstant is the bound 0.1893 of the Crouzeix–Raviart interpolation
 // constant in Liu's guaranteed lower eigenvalue bound (Liu, Appl. Math.
-// Comput. 267 (2015); CHECKS.md item 4).
+// Comput. 267 (2015); docs/checks.md item 4).
 const LiuConstant = 0.1893
 
 // WidthConstant returns the guaranteed Friedrichs constant of the width
-// bound ℓ/((α − 1)^{1/α} π_α), ℓ = mesh.MinWidth (MATH.md §6; sharp on an
-// interval, CHECKS.md item 1).
+// bound ℓ/((α − 1)^{1/α} π_α), ℓ = mesh.MinWidth (docs/math.md §6; sharp on an
+// interval, docs/checks.md item 1).
 func WidthConstant(m *mesh.Mesh, alpha float64) (Constant, error) {
 	if m == nil || !(alpha > 1) || math.IsInf(alpha, 0) {
 		return Constant{}, fmt.Errorf("friedrichs constant: need a mesh and a finite α > 1, got α = %g", alpha)
@@ -89,7 +89,7 @@ func FirstEigenvalue(ctx context.Context, m *mesh.Mesh) (EigenBracket, error) {
 // FriedrichsConstant returns the best guaranteed C_F,α of the domain meshed
 // by m: the width bound, and for α = 2 on a polygon also λ₁^{-1/2} from
 // the guaranteed lower eigenvalue bound of FirstEigenvalue, whichever is
-// smaller (MATH.md §6).
+// smaller (docs/math.md §6).
 func FriedrichsConstant(ctx context.Context, m *mesh.Mesh, alpha float64) (Constant, error) {
 	c, err := WidthConstant(m, alpha)
 	if err != nil || alpha != 2 || m.Dim != 2 {

@@ -14,7 +14,7 @@ import (
 )
 
 // TestWidthConstantInterval: on (0, 1) the width bound is the sharp 1-D
-// Friedrichs constant. Values: CHECKS.md item 1 (Bognár & Došlý, Abstr.
+// Friedrichs constant. Values: docs/checks.md item 1 (Bognár & Došlý, Abstr.
 // Appl. Anal. 2010, eqs. (1.1)–(1.2)).
 func TestWidthConstantInterval(t *testing.T) {
 	for _, c := range []struct{ p, want float64 }{
@@ -32,9 +32,9 @@ func TestWidthConstantInterval(t *testing.T) {
 }
 
 // TestEigenvalueBracket: the CR lower bound and the P1 upper bound bracket
-// 2π² on the unit square (separation of variables; CHECKS.md item 2) and
+// 2π² on the unit square (separation of variables; docs/checks.md item 2) and
 // 9.6397238440219 on the L-shape (Betcke & Trefethen, SIAM Rev. 47 (2005);
-// CHECKS.md item 3, [M] there, confirmed by the bracket itself converging
+// docs/checks.md item 3, [M] there, confirmed by the bracket itself converging
 // around it).
 func TestEigenvalueBracket(t *testing.T) {
 	ctx := context.Background()
@@ -69,7 +69,7 @@ func TestEigenvalueBracket(t *testing.T) {
 }
 
 // TestAlphaEigenvalue: on (0, 1) the P1 inverse power iteration approaches
-// λ_p = (p − 1)π_p^p (CHECKS.md item 1) from above, and its constant is
+// λ_p = (p − 1)π_p^p (docs/checks.md item 1) from above, and its constant is
 // labelled an estimate.
 func TestAlphaEigenvalue(t *testing.T) {
 	for _, c := range []struct{ p, want float64 }{
@@ -106,14 +106,14 @@ func TestAlphaEigenvalueSquare(t *testing.T) {
 	}
 }
 
-// TestPoincareConvex verifies the convex-cell Poincaré constant of CHECKS.md
+// TestPoincareConvex verifies the convex-cell Poincaré constant of docs/checks.md
 // item 5 (Ferone, Nitsch & Trombetti, arXiv:1207.0680, best-constant form)
 // on single triangles before it is trusted: the ratio
 // min_c ‖w − c‖_α / ‖∇w‖_α of random P1 functions and of P1 functions
 // maximised by L-BFGS on a subdivided triangle never exceeds
 // diam/((α − 1)^{1/α} π_α). The maximised ratio must also come close (a test
 // that cannot fail is useless): on the equilateral triangle at α = 2 the
-// supremum is 3/4 of the constant (CHECKS.md item 5, exact).
+// supremum is 3/4 of the constant (docs/checks.md item 5, exact).
 func TestPoincareConvex(t *testing.T) {
 	tris := []struct {
 		name string

@@ -1,6 +1,7 @@
 package estimate
 
 import (
+	"gapbook/problem"
 	"testing"
 
 	"gapbook/convex"
@@ -39,9 +40,9 @@ func TestNegativeWeightRulesAvoided(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	p := Problem{G: G, F: func(x, y float64) float64 { return 1 }}
+	p := problem.Steady(G, func(x, y float64) float64 { return 1 }, nil)
 	for ask, want := range map[int]int{0: DefaultDegree, 3: 4, 5: 5, 7: 8} {
-		tm, err := EvaluateTerms(s, p, v, y, ask)
+		tm, err := EvaluateTerms(s, p, v, y, ask, nil)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -13,7 +13,7 @@ import (
 // Source is the load that an equilibrated flux balances, evaluated at the
 // point of cell k with barycentric coordinates lam (1-D: lam[0], lam[1]).
 // For the elliptic problem it is f; for a step of the evolution problem it
-// is f_n − (v_n − v_{n−1})/τ, which contains a P1 field (MATH.md §7). It is
+// is f_n − (v_n − v_{n−1})/τ, which contains a P1 field (docs/math.md §7). It is
 // called at quadrature points only, so data known only there can be wrapped
 // as well.
 type Source func(k int, lam [3]float64) float64
@@ -28,7 +28,7 @@ func FuncSource(m *mesh.Mesh, f func(x, y float64) float64) Source {
 }
 
 // StepSource returns the load f(x, y) − (vNew − vOld)/τ of an implicit Euler
-// step of the evolution problem (MATH.md §7), with vNew and vOld nodal P1
+// step of the evolution problem (docs/math.md §7), with vNew and vOld nodal P1
 // vectors; f == nil means f = 0.
 func StepSource(m *mesh.Mesh, f func(x, y float64) float64, vNew, vOld []float64, tau float64) (Source, error) {
 	n := m.NumNodes()
@@ -213,7 +213,7 @@ func divergence(c *[6][2]float64, g *[3][2]float64, nv int) (d [3]float64) {
 // RT_k, div y* + Π_k f = 0 holds on every cell to rounding whatever the
 // quality of v, and y* approximately minimises ∫ D_G(∇v, y*) among all
 // such fields, i.e. it approximates the discrete dual mixed solution
-// (MATH.md §5, item 3).
+// (docs/math.md §5, item 3).
 //
 // Method (2-D). (1) Start from the edge fluxes of the cellwise flux
 // σ = ∂G(∇v), averaged across each edge; (2) correct them along a spanning

@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"context"
+	"gapbook/problem"
 	"testing"
 
 	"gapbook/convex"
@@ -32,13 +33,13 @@ func effCase(t *testing.T, alpha float64, order, n int) effRow {
 	for c := 4; c < n; c *= 2 {
 		m = must(m.Refine())
 	}
-	sol, err := nonlinear.Solve(context.Background(), m, nonlinear.Problem{G: G, F: f, Dirichlet: man.u}, nonlinear.Options{})
+	sol, err := nonlinear.Solve(context.Background(), m, problem.Steady(G, f, man.u), nonlinear.Options{})
 	if err != nil {
 		t.Fatalf("α=%g n=%d: %v", alpha, n, err)
 	}
 	s := must(fem.NewP1(m))
 	y := must(Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Order: order}))
-	r := must(Estimate(s, Problem{G: G, F: f}, sol.U, y, Options{Friedrichs: must(WidthConstant(m, alpha))}))
+	r := must(Estimate(s, problem.Steady(G, f, nil), sol.U, y, Options{Friedrichs: must(WidthConstant(m, alpha))}))
 	mu, muStar, _ := eqIdentity(s, G, sol.U, man.grad, y, fem.Triangle(8))
 	if r.Majorant.Value < mu || r.Dual.Value < mu+muStar {
 		t.Errorf("α=%g RT%d n=%d: a bound is below the truth: majorant %.6e vs μ %.6e, D + R X(μ̄) = %.6e vs μ + μ* = %.6e",
@@ -49,7 +50,7 @@ func effCase(t *testing.T, alpha float64, order, n int) effRow {
 }
 
 // TestEquilibratedDiscreteEfficiency measures the efficiency of the
-// equilibrated flux for v = the converged discrete solution (MATH.md §5).
+// equilibrated flux for v = the converged discrete solution (docs/math.md §5).
 // Measured (μ̄/μ, joint index B/(μ + μ*); n squares per side):
 //
 //	α     RT0 n=32       RT0 n=64       RT1 n=32       RT1 n=64

@@ -163,7 +163,7 @@ func eqIdentity(s *fem.P1, G convex.Potential, v []float64, grad func(x, y float
 }
 
 // TestEquilibratedPragerSynge checks ‖∇(u−v)‖² + ‖∇u − y‖² = ‖∇v − y‖² (Prager &
-// Synge, Quart. Appl. Math. 5 (1947); CHECKS.md item 13) for G = |ξ|²/2,
+// Synge, Quart. Appl. Math. 5 (1947); docs/checks.md item 13) for G = |ξ|²/2,
 // i.e. μ + μ* = D with the halves, for v = the interpolant of u plus a
 // random interior perturbation (any v with v = u on ∂Ω is allowed) and f a
 // polynomial of degree ≤ k, so that the residual vanishes:
@@ -214,8 +214,8 @@ func TestEquilibratedPragerSynge(t *testing.T) {
 }
 
 // TestEquilibratedHypercircle checks the nonlinear hypercircle (E-ID with r = 0,
-// MATH.md §4; Bartels & Kaltenbach, arXiv:2402.06429, CHECKS.md item 15) on
-// the radial problem −div(|∇u|^{α−2}∇u) = 1 in the unit disk (CHECKS.md item
+// docs/math.md §4; Bartels & Kaltenbach, arXiv:2402.06429, docs/checks.md item 15) on
+// the radial problem −div(|∇u|^{α−2}∇u) = 1 in the unit disk (docs/checks.md item
 // 9: u = ((α−1)/α) 2^{−1/(α−1)} (1 − r^{α'}), exact flux −x/2). The mesh is
 // a polygon inscribed in the disk, on whose boundary u ≠ 0 = v, so the
 // identity carries its boundary term:
@@ -285,7 +285,7 @@ func eqBoundaryTerm(m *mesh.Mesh, u func(x, y float64) float64, v []float64, y F
 }
 
 // TestEquilibrated1D checks the 1-D flux on (0, 1) with f = 1 and the exact
-// solution of CHECKS.md item 9 (u = ((α−1)/α)((1/2)^{α'} − |x − 1/2|^{α'})):
+// solution of docs/checks.md item 9 (u = ((α−1)/α)((1/2)^{α'} − |x − 1/2|^{α'})):
 // y*' = −1 exactly, the hypercircle μ + μ* = D (v = u at both ends), and
 // that the constant of y* minimises D (shifting it either way increases D).
 func TestEquilibrated1D(t *testing.T) {

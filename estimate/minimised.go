@@ -10,6 +10,7 @@ import (
 
 	"gapbook/convex"
 	"gapbook/fem"
+	"gapbook/problem"
 )
 
 // MinimiseOptions configure Minimise.
@@ -28,11 +29,13 @@ type MinimiseOptions struct {
 	// Options.Degree (0: DefaultDegree); the inner functional uses the same
 	// rule, so its residual means are those of the bounds.
 	Degree int
+	// Samples are handed to Estimate, as in Options.
+	Samples *Samples
 }
 
 // Minimised is a flux y* = y0 + z with y0 a given starting flux and z a
 // continuous piecewise linear vector field chosen to lower the majorant
-// μ̄ of MATH.md §4 (MATH.md §5, item 2). It implements Flux.
+// μ̄ of docs/math.md §4 (docs/math.md §5, item 2). It implements Flux.
 type Minimised struct {
 	start Flux
 	// Nodal holds z at every node.
@@ -69,14 +72,14 @@ func (m *Minimised) Degree() int { return max(1, m.start.Degree()) }
 // flux y0 (averaged or equilibrated), and returns the result; its majorant
 // never exceeds that of y0.
 //
-// Method. μ̄ is the largest root of μ = D(y*) + R(y*) X(μ) (MATH.md §4).
+// Method. μ̄ is the largest root of μ = D(y*) + R(y*) X(μ) (docs/math.md §4).
 // With X̄ = X(μ̄) frozen at the current flux, any y* with
 // D(y*) + X̄ R(y*) below the current D + X̄ R = μ̄ has a smaller largest
 // root (the root function μ − D − R X(μ) changes sign once, from − to +),
 // so each round minimises the convex functional D(y*) + X̄ R_form(y*) for
 // the residual form that won at the current flux (R_form ≥ R, equal at the
 // start of the round) and recomputes μ̄ by Estimate. This is the
-// alternation between y* and θ of MATH.md §5 written for the root (θ =
+// alternation between y* and θ of docs/math.md §5 written for the root (θ =
 // R X'(μ̄) is the Young form's weight at the root), valid for both modulus
 // types. The inner problem is solved by L-BFGS (gonum optimize; Nocedal &
 // Wright, Numerical Optimization, 2006, §7.2) with D(y*) evaluated as
@@ -91,8 +94,8 @@ func (m *Minimised) Degree() int { return max(1, m.start.Degree()) }
 // flux to use for sharp bounds; Minimise is offered to improve the
 // averaged flux without any global solve, or to trade a little balance of
 // an equilibrated flux for a smaller ∫ D_G.
-func Minimise(ctx context.Context, s *fem.P1, p Problem, v []float64, y0 Flux, opt MinimiseOptions) (*Minimised, error) {
-	if s == nil || p.G == nil || p.F == nil || y0 == nil {
+func Minimise(ctx context.Context, s *fem.P1, p *problem.Problem, v []float64, y0 Flux, opt MinimiseOptions) (*Minimised, error) {
+	if s == nil || p == nil || p.G == nil || p.SourceAt(p.T0) == nil || y0 == nil {
 		return nil, errors.New("minimised flux: need a P1 space, a potential, a source f and a starting flux")
 	}
 	if len(v) != s.NumNodes() {
@@ -113,7 +116,7 @@ func Minimise(ctx context.Context, s *fem.P1, p Problem, v []float64, y0 Flux, o
 	m := s.Mesh
 	nn, nc, dim := m.NumNodes(), m.NumCells(), m.Dim
 	y := &Minimised{start: y0, Nodal: make([][2]float64, nn), cells: m.Cells, div: make([]float64, nc), dim: dim}
-	estOpt := Options{Degree: opt.Degree, Friedrichs: opt.Friedrichs, Modulus: opt.Modulus}
+	estOpt := Options{Degree: opt.Degree, Friedrichs: opt.Friedrichs, Modulus: opt.Modulus, Samples: opt.Samples}
 	res, err := Estimate(s, p, v, y, estOpt)
 	if err != nil {
 		return nil, fmt.Errorf("minimised flux: %w", err)
@@ -194,7 +197,8 @@ type inner struct {
 	divz  []float64
 }
 
-func newInner(s *fem.P1, p Problem, v []float64, y0 Flux, degree int) *inner {
+func newInner(s *fem.P1, p *problem.Problem, v []float64, y0 Flux, degree int) *inner {
+	f := p.SourceAt(p.T0)
 	m := s.Mesh
 	nc := m.NumCells()
 	rule := s.Rule(degree)
@@ -217,7 +221,7 @@ func newInner(s *fem.P1, p Problem, v []float64, y0 Flux, degree int) *inner {
 			ys, div := y0.At(k, in.lam[q])
 			in.w[i] = rule.Weights[q] * scale * s.Area[k]
 			in.y0[i] = ys
-			in.r0[i] = p.F(x, yy) + div
+			in.r0[i] = f(x, yy) + div
 			in.mean0[k] += in.w[i] * in.r0[i]
 			wk += in.w[i]
 		}

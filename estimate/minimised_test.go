@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"context"
+	"gapbook/problem"
 	"testing"
 
 	"gapbook/convex"
@@ -12,7 +13,7 @@ import (
 // of the bounds tests (interval, square, L-shape; α = 1.5, 3) for a
 // perturbed interpolant v and two starting fluxes: (1) its majorant is at
 // most that of the starting flux, recomputed here by Estimate; (2) the
-// invariant of MATH.md §4: the majorant, the dual bound and the norm bound
+// invariant of docs/math.md §4: the majorant, the dual bound and the norm bound
 // are not below μ(v), μ*(y*) and ‖∇(u − v)‖_α computed from the exact
 // solution by a high-order rule; (3) from the averaged flux, whose residual
 // is O(1), the majorant falls at least tenfold. Measured (I_eff = μ̄/μ from
@@ -37,7 +38,7 @@ func TestMinimisedMajorant(t *testing.T) {
 					y0 = must(Equilibrate(context.Background(), s, G, v, FuncSource(m, f), EquilibrateOptions{}))
 				}
 				cf := must(WidthConstant(m, alpha))
-				p := Problem{G: G, F: f}
+				p := problem.Steady(G, f, nil)
 				r0 := must(Estimate(s, p, v, y0, Options{Friedrichs: cf}))
 				y, err := Minimise(context.Background(), s, p, v, y0, MinimiseOptions{Friedrichs: cf})
 				if err != nil {

@@ -15,7 +15,7 @@ import (
 // a manufactured source — is evaluated once per point instead of twice.
 //
 // Give Source() to Equilibrate with EquilibrateOptions.Degree = Degree and
-// the Samples to Problem.Samples; a Samples is not safe for concurrent use.
+// the Samples to Options.Samples; a Samples is not safe for concurrent use.
 type Samples struct {
 	// Degree is the degree of the rule (as EvaluateTerms and Equilibrate
 	// take it).

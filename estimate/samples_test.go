@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"context"
+	"gapbook/problem"
 	"math"
 	"strings"
 	"testing"
@@ -33,12 +34,12 @@ func TestSamplesShared(t *testing.T) {
 	for _, order := range []int{0, 1} {
 		eo := EquilibrateOptions{Order: order, Degree: DefaultDegree}
 		y1 := must(Equilibrate(context.Background(), s, G, v, FuncSource(m, f), eo))
-		r1 := must(Estimate(s, Problem{G: G, F: f}, v, y1, Options{Friedrichs: cf}))
+		r1 := must(Estimate(s, problem.Steady(G, f, nil), v, y1, Options{Friedrichs: cf}))
 		calls = 0
 		sm := must(NewSamples(s, f, 0))
 		made := calls
 		y2 := must(Equilibrate(context.Background(), s, G, v, sm.Source(), eo))
-		r2 := must(Estimate(s, Problem{G: G, F: f, Samples: sm}, v, y2, Options{Friedrichs: cf}))
+		r2 := must(Estimate(s, problem.Steady(G, f, nil), v, y2, Options{Friedrichs: cf, Samples: sm}))
 		if made != m.NumCells()*16 {
 			t.Errorf("RT%d: %d calls to make the samples, want %d", order, made, m.NumCells()*16)
 		}
@@ -55,7 +56,7 @@ func TestSamplesShared(t *testing.T) {
 	sm := must(NewSamples(s, f, 0))
 	other := func(x, y float64) float64 { return math.Exp(x) * (1 + y*y) * (1 + 1e-9) }
 	y := must(NewAveraged(s, G, v))
-	if _, err := Estimate(s, Problem{G: G, F: other, Samples: sm}, v, y, Options{Friedrichs: cf}); err == nil || !strings.Contains(err.Error(), "do not hold f") {
+	if _, err := Estimate(s, problem.Steady(G, other, nil), v, y, Options{Friedrichs: cf, Samples: sm}); err == nil || !strings.Contains(err.Error(), "do not hold f") {
 		t.Errorf("samples of another source accepted: %v", err)
 	}
 	src := sm.Source()
@@ -81,12 +82,12 @@ func TestSolverSamples(t *testing.T) {
 	G := must(convex.Power(3))
 	calls := 0
 	f := func(x, y float64) float64 { calls++; return math.Cos(x+2*y) + 2 }
-	sol := must(nonlinear.Solve(context.Background(), m, nonlinear.Problem{G: G, F: f}, nonlinear.Options{}))
+	sol := must(nonlinear.Solve(context.Background(), m, problem.Steady(G, f, nil), nonlinear.Options{}))
 	cf := must(WidthConstant(m, 3))
 	calls = 0
 	sm := must(SamplesOf(s, f, sol.LoadDegree, sol.Load))
 	y := must(Equilibrate(context.Background(), s, G, sol.U, sm.Source(), EquilibrateOptions{Degree: sm.Degree}))
-	r := must(Estimate(s, Problem{G: G, F: f, Samples: sm}, sol.U, y, Options{Friedrichs: cf}))
+	r := must(Estimate(s, problem.Steady(G, f, nil), sol.U, y, Options{Friedrichs: cf, Samples: sm}))
 	if calls > m.NumCells()/sampleCheckStride+1 {
 		t.Errorf("%d calls of f after the solve", calls)
 	}
@@ -95,7 +96,7 @@ func TestSolverSamples(t *testing.T) {
 		!strings.Contains(q.String(), "of degree 5 (7 points), f read from samples") {
 		t.Errorf("quadrature %+v: %s", q, q)
 	}
-	own := must(Estimate(s, Problem{G: G, F: f}, sol.U, must(Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Degree: 5})), Options{Friedrichs: cf}))
+	own := must(Estimate(s, problem.Steady(G, f, nil), sol.U, must(Equilibrate(context.Background(), s, G, sol.U, FuncSource(m, f), EquilibrateOptions{Degree: 5})), Options{Friedrichs: cf}))
 	if math.Abs(own.Majorant.Value-r.Majorant.Value) > 1e-6*own.Majorant.Value {
 		t.Errorf("majorant %.12g with the solver's samples, %.12g with f at degree 8", r.Majorant.Value, own.Majorant.Value)
 	}

@@ -290,7 +290,7 @@ func TestScalar(t *testing.T) {
 //
 //	div(|∇u|^(p−2)∇u) = |∇u|^(p−2)Δu + (p−2)|∇u|^(p−4) ∇uᵀH∇u,
 //
-// and compares it with the closed form of CHECKS.md item 12 for n = 2:
+// and compares it with the closed form of docs/checks.md item 12 for n = 2:
 // −Δ_p u = −a^(p−1)((a−1)(p−1) + n − 1)|x|^((a−1)(p−1)−1).
 func TestPLaplaceManufactured(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 6))

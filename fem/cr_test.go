@@ -41,7 +41,7 @@ func lShape(t testing.TB, n int) *mesh.Mesh {
 }
 
 // lowerBound applies Liu's guaranteed bound λ ≥ λ_CR / (1 + (0.1893 h)² λ_CR)
-// (CHECKS.md item 4; Liu, Appl. Math. Comput. 267 (2015)), with the
+// (docs/checks.md item 4; Liu, Appl. Math. Comput. 267 (2015)), with the
 // discrete eigenvalue lowered by its Krylov–Weinstein radius.
 func lowerBound(ev Eigen, h float64) float64 {
 	l := ev.Value - ev.Radius
@@ -56,9 +56,9 @@ func TestEigenvalueBounds(t *testing.T) {
 		h     float64
 		exact float64
 	}{
-		// CHECKS.md item 2: 2π², separation of variables (textbook).
+		// docs/checks.md item 2: 2π², separation of variables (textbook).
 		{"unit square", sq, math.Sqrt2 / 16, 2 * math.Pi * math.Pi},
-		// CHECKS.md item 3: Betcke & Trefethen, SIAM Review 47 (2005) [M],
+		// docs/checks.md item 3: Betcke & Trefethen, SIAM Review 47 (2005) [M],
 		// confirmed there by finite element extrapolation.
 		{"L-shape", lShape(t, 8), math.Sqrt2 / 8, 9.6397238440219},
 	}

@@ -64,7 +64,7 @@ func TestTriangleRulesExactToDegree(t *testing.T) {
 	}
 }
 
-// CHECKS.md item 16: Dunavant (1985), degree 5, 7 points.
+// docs/checks.md item 16: Dunavant (1985), degree 5, 7 points.
 func TestDunavantDegree5PublishedValues(t *testing.T) {
 	r, _ := Dunavant(5)
 	want := []struct{ w, a float64 }{

@@ -187,7 +187,7 @@ func TestDomainsAreaAndConformity(t *testing.T) {
 	}
 }
 
-// CHECKS.md item 3 fixes the L-shape as (−1,1)² \ [0,1)×(−1,0].
+// docs/checks.md item 3 fixes the L-shape as (−1,1)² \ [0,1)×(−1,0].
 func TestLShapePlacement(t *testing.T) {
 	m := must(t)(LShape(4))
 	lo, hi := m.BoundingBox()

@@ -29,7 +29,7 @@ func (m *Mesh) diameter(k int) float64 {
 }
 
 // MaxH returns the largest cell diameter, the h of a priori estimates and of
-// the Crouzeix–Raviart eigenvalue bound (CHECKS.md item 4).
+// the Crouzeix–Raviart eigenvalue bound (docs/checks.md item 4).
 func (m *Mesh) MaxH() float64 {
 	h := 0.0
 	for k := range m.Cells {
@@ -64,7 +64,7 @@ func (m *Mesh) BoundingBox() (lo, hi Point) {
 // MinWidth returns the width of the domain: the smallest distance between
 // two parallel lines that enclose it, which is the width of its convex hull.
 // Ω then lies in a strip of that width, the ℓ of the Friedrichs width bound
-// (MATH.md §6). Method: convex hull by Andrew's monotone chain (Andrew 1979),
+// (docs/math.md §6). Method: convex hull by Andrew's monotone chain (Andrew 1979),
 // then rotating calipers (Shamos 1978; Toussaint 1983): the minimum width is
 // attained with one line through an edge of the hull. In 1-D it is the
 // length of the interval.

@@ -7,7 +7,7 @@ import (
 )
 
 // LShape returns the mesh of the L-shaped domain (−1,1)² \ [0,1)×(−1,0]
-// (the placement of CHECKS.md item 3), re-entrant corner at the origin,
+// (the placement of docs/checks.md item 3), re-entrant corner at the origin,
 // with n × n squares per unit square, each cut into two triangles along the
 // diagonal from lower left to upper right. When n has a factor 2^k the mesh
 // is built as k uniform refinements of a coarser one, so multigrid gets the
@@ -97,7 +97,7 @@ func fromCells(nodes []Point, cells [][3]int32) *Mesh {
 // The domain is the polygon, exactly: refined boundary nodes stay on its
 // edges and are not moved onto the circle, so every bound computed on this
 // mesh is a bound for the problem posed on the polygon. Its area is
-// (n/2) R² sin(2π/n); compare with values for the disk (CHECKS.md item 9)
+// (n/2) R² sin(2π/n); compare with values for the disk (docs/checks.md item 9)
 // only up to that geometric difference, O(n⁻²).
 //
 // The coarsest mesh has rings of nodes at radii R·j/m, m ≈ n/(2π), with

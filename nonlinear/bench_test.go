@@ -3,6 +3,7 @@ package nonlinear
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"runtime"
 	"testing"
@@ -17,7 +18,7 @@ import (
 // u = sin(x + 2y) + x on the unit square, f = −D²G(∇u) : ∇²u in closed form
 // (∇u = (cos s + 1, 2 cos s), ∇²u = −sin s [1 2; 2 4], s = x + 2y), checked
 // against Manufacture.
-func benchProblem(b *testing.B, a float64, n int) (*mesh.Mesh, Problem) {
+func benchProblem(b *testing.B, a float64, n int) (*mesh.Mesh, *problem.Problem) {
 	G, err := convex.Power(a)
 	if err != nil {
 		b.Fatal(err)
@@ -29,7 +30,7 @@ func benchProblem(b *testing.B, a float64, n int) (*mesh.Mesh, Problem) {
 		return math.Sin(s) * (d[0] + 4*d[1] + 4*d[2])
 	}
 	u := func(x, y float64) float64 { return math.Sin(x+2*y) + x }
-	man, err := Manufacture("sin(x + 2*y) + x", G)
+	man, err := problem.Manufacture("sin(x + 2*y) + x", G)
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -47,7 +48,7 @@ func benchProblem(b *testing.B, a float64, n int) (*mesh.Mesh, Problem) {
 			b.Fatal(err)
 		}
 	}
-	return m, Problem{G: G, F: f, Dirichlet: u}
+	return m, problem.Steady(G, f, u)
 }
 
 // matvecTime times one product with a stiffness matrix on m.

@@ -32,7 +32,7 @@ func hasConjugate(G convex.Potential) bool {
 //
 //	gap = Σ_T |T| D_G(∇w_T, σ_T) ≥ J(w) − min J
 //
-// (discrete Fenchel duality; the nonlinear hypercircle of MATH.md §4 on
+// (discrete Fenchel duality; the nonlinear hypercircle of docs/math.md §4 on
 // the P1/P0 pair) certifies the energy error of w. Newton stops when the
 // gap, with the linear residual's share |wᵀr| added, is below tol times the
 // energy scale: the residual test of the primal Newton method is replaced by

@@ -8,32 +8,8 @@ import (
 
 	"gapbook/convex"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
-
-// Evolution is the problem (P) of MATH.md §7,
-//
-//	∂_t u − div ∂G(∇u) = f in Ω × (T0, T),  u = Dirichlet on ∂Ω,  u(T0) = U0,
-//
-// with data given as functions (for formulas, wrap expr.Formula.Eval).
-type Evolution struct {
-	// G is the potential (required).
-	G convex.Potential
-	// F is f(x, y, t); nil means f = 0.
-	F func(x, y, t float64) float64
-	// Dirichlet is u_D(x, y, t); nil means 0. P1 sees its values at the
-	// boundary nodes only.
-	Dirichlet func(x, y, t float64) float64
-	// U0 is u(x, y, T0); nil means 0. The discrete start v_0 is its nodal
-	// interpolant, with the Dirichlet values at T0 on the boundary.
-	U0 func(x, y float64) float64
-	// T0 < T is the time window.
-	T0, T float64
-	// Steps is the number of uniform time steps; ignored when Times is set.
-	Steps int
-	// Times is an explicit grid T0 = t_0 < t_1 < … < t_N = T (e.g. adapted
-	// from time indicators); it overrides T0, T and Steps.
-	Times []float64
-}
 
 // StepFunc receives each implicit Euler step as it is completed: the
 // interval (t0, t1) and the nodal values v0 = v(t0), v1 = v(t1). The slices
@@ -51,6 +27,12 @@ type EvolveStep struct {
 
 // EvolveOptions tune Evolve.
 type EvolveOptions struct {
+	// Steps is the number of uniform time steps of (T0, T); ignored when
+	// Times is set.
+	Steps int
+	// Times is an explicit grid T0 = t_0 < t_1 < … < t_N = T (e.g. adapted
+	// from time indicators); it overrides the problem's window and Steps.
+	Times []float64
 	// Newton configures each step's minimisation (Initial and Progress are
 	// set by Evolve).
 	Newton Options
@@ -75,9 +57,14 @@ type EvolveResult struct {
 	Newton, CG int
 }
 
-// Grid returns the time grid of e: Times if set, otherwise Steps uniform
-// steps of (T0, T).
-func (e Evolution) Grid() ([]float64, error) {
+// Grid returns the time grid of the evolution of p: o.Times if set,
+// otherwise o.Steps uniform steps of (p.T0, p.T).
+func (o EvolveOptions) Grid(p *problem.Problem) ([]float64, error) {
+	e := struct {
+		T0, T float64
+		Steps int
+		Times []float64
+	}{p.T0, p.T, o.Steps, o.Times}
 	if len(e.Times) > 0 {
 		if len(e.Times) < 2 {
 			return nil, errors.New("evolution: the time grid needs at least two times")
@@ -108,21 +95,21 @@ func (e Evolution) Grid() ([]float64, error) {
 //
 //	∫ |w − v_{n−1}|²/(2τ) + G(∇w) − f(t_n) w,  w = u_D(t_n) on ∂Ω,
 //
-// by Solve with its mass term (MATH.md §7; backward Euler as a sequence of
+// by Solve with its mass term (docs/math.md §7; backward Euler as a sequence of
 // convex minimisations, the time-discrete scheme of Rothe's method, see
 // Kačur, Method of Rothe in Evolution Equations, 1985), started from
 // v_{n−1}. After every step it calls step (if non-nil) so that error bounds
 // accumulate as the solver goes; it keeps only two time levels, so memory
 // does not grow with the number of steps. Cancellation of ctx stops it
 // between or inside Newton steps.
-func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, step StepFunc) (*EvolveResult, error) {
+func Evolve(ctx context.Context, m *mesh.Mesh, e *problem.Problem, opt EvolveOptions, step StepFunc) (*EvolveResult, error) {
 	if m == nil {
 		return nil, errors.New("evolution: no mesh")
 	}
-	if e.G == nil {
+	if e == nil || e.G == nil {
 		return nil, errors.New("evolution: no potential G")
 	}
-	times, err := e.Grid()
+	times, err := opt.Grid(e)
 	if err != nil {
 		return nil, err
 	}
@@ -147,7 +134,7 @@ func Evolve(ctx context.Context, m *mesh.Mesh, e Evolution, opt EvolveOptions, s
 	for n := 1; n < len(times); n++ {
 		t0, t1 := times[n-1], times[n]
 		tau := t1 - t0
-		p := Problem{G: e.G, Mass: 1 / tau, Ref: prev}
+		p := discrete{G: e.G, Mass: 1 / tau, Ref: prev}
 		if e.F != nil {
 			// The solver samples f once per step at its load points
 			// (Result.Load), which Load hands on to the bounds.

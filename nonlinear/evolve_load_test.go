@@ -2,6 +2,7 @@ package nonlinear
 
 import (
 	"context"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -29,8 +30,8 @@ func TestEvolveLoadSamples(t *testing.T) {
 			pts := make([]mesh.Point, c.m.NumCells()*r.Len())
 			s.QuadPoints(r, pts)
 			var bad int
-			ev := Evolution{G: G, F: counted, U0: func(x, y float64) float64 { return x * (1 - x) }, T: 0.3, Steps: steps}
-			_, err := Evolve(context.Background(), c.m, ev, EvolveOptions{Load: func(t1 float64, degree int, vals []float64) {
+			ev := problem.Evolution(G, counted, nil, func(x, y float64) float64 { return x * (1 - x) }, 0, 0.3)
+			_, err := Evolve(context.Background(), c.m, ev, EvolveOptions{Steps: steps, Load: func(t1 float64, degree int, vals []float64) {
 				for i, p := range pts {
 					if degree != DefaultLoadDegree || vals[i] != f(p.X, p.Y, t1) {
 						bad++

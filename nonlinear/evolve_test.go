@@ -3,6 +3,7 @@ package nonlinear
 import (
 	"context"
 	"errors"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -28,8 +29,8 @@ func TestEvolveHeat(t *testing.T) {
 		h := 1 / float64(c.cells)
 		lam := 6 / (h * h) * (1 - math.Cos(math.Pi*h)) / (2 + math.Cos(math.Pi*h))
 		var progress []EvolveStep
-		r, err := Evolve(context.Background(), m, Evolution{G: G, U0: u0, T: 0.1, Steps: c.steps},
-			EvolveOptions{Newton: Options{ResTol: 1e-13}, Progress: func(s EvolveStep) { progress = append(progress, s) }}, nil)
+		r, err := Evolve(context.Background(), m, problem.Evolution(G, nil, nil, u0, 0, 0.1),
+			EvolveOptions{Steps: c.steps, Newton: Options{ResTol: 1e-13}, Progress: func(s EvolveStep) { progress = append(progress, s) }}, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -59,10 +60,11 @@ func TestEvolveCallback(t *testing.T) {
 	G := power(t, 3)
 	m, _ := mesh.Rectangle(0, 1, 0, 1, 4, 4)
 	u0 := func(x, y float64) float64 { return x * (1 - x) * y * (1 - y) }
-	e := Evolution{G: G, U0: u0, Times: []float64{0, 0.01, 0.03, 0.06}}
+	e := problem.Evolution(G, nil, nil, u0, 0, 0)
 	var last []float64
 	var t1s []float64
-	_, err := Evolve(context.Background(), m, e, EvolveOptions{}, func(_ context.Context, a, b float64, v0, v1 []float64) error {
+	grid := EvolveOptions{Times: []float64{0, 0.01, 0.03, 0.06}}
+	_, err := Evolve(context.Background(), m, e, grid, func(_ context.Context, a, b float64, v0, v1 []float64) error {
 		if last != nil {
 			for i := range v0 {
 				if v0[i] != last[i] {
@@ -81,21 +83,24 @@ func TestEvolveCallback(t *testing.T) {
 		t.Errorf("callback times %v", t1s)
 	}
 	stop := errors.New("stop")
-	if _, err := Evolve(context.Background(), m, e, EvolveOptions{}, func(context.Context, float64, float64, []float64, []float64) error { return stop }); !errors.Is(err, stop) {
+	if _, err := Evolve(context.Background(), m, e, grid, func(context.Context, float64, float64, []float64, []float64) error { return stop }); !errors.Is(err, stop) {
 		t.Errorf("callback error: got %v", err)
 	}
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()
-	if _, err := Evolve(ctx, m, e, EvolveOptions{}, nil); !errors.Is(err, context.Canceled) {
+	if _, err := Evolve(ctx, m, e, grid, nil); !errors.Is(err, context.Canceled) {
 		t.Errorf("cancelled: got %v", err)
 	}
-	for _, bad := range []Evolution{
-		{G: G, T: 1},
-		{G: G, T0: 1, T: 1, Steps: 2},
-		{G: G, Times: []float64{0, 0.5, 0.5}},
-		{T: 1, Steps: 1},
+	for _, bad := range []struct {
+		p *problem.Problem
+		o EvolveOptions
+	}{
+		{problem.Evolution(G, nil, nil, nil, 0, 1), EvolveOptions{}},
+		{problem.Evolution(G, nil, nil, nil, 1, 1), EvolveOptions{Steps: 2}},
+		{problem.Evolution(G, nil, nil, nil, 0, 0), EvolveOptions{Times: []float64{0, 0.5, 0.5}}},
+		{problem.Evolution(nil, nil, nil, nil, 0, 1), EvolveOptions{Steps: 1}},
 	} {
-		if _, err := Evolve(context.Background(), m, bad, EvolveOptions{}, nil); err == nil {
+		if _, err := Evolve(context.Background(), m, bad.p, bad.o, nil); err == nil {
 			t.Errorf("%+v: no error", bad)
 		}
 	}
@@ -112,8 +117,9 @@ func TestEvolveKeepsLevels(t *testing.T) {
 	u0 := func(x, y float64) float64 { return x + x*(1-x)*y*(1-y) }
 	for _, alpha := range []float64{2, 3} {
 		G := power(t, alpha)
-		e := Evolution{G: G, F: f, Dirichlet: uD, U0: u0, T: 0.2, Steps: 3}
-		r, err := Evolve(context.Background(), m, e, EvolveOptions{}, nil)
+		e := problem.Evolution(G, f, uD, u0, 0, 0.2)
+		eo := EvolveOptions{Steps: 3}
+		r, err := Evolve(context.Background(), m, e, eo, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -124,13 +130,13 @@ func TestEvolveKeepsLevels(t *testing.T) {
 				prev[i] = uD(p.X, p.Y, 0)
 			}
 		}
-		times, _ := e.Grid()
+		times, _ := eo.Grid(e)
 		for n := 1; n < len(times); n++ {
 			t1 := times[n]
-			p := Problem{G: warmPotential{G}, Mass: 1 / (t1 - times[n-1]), Ref: prev,
+			p := discrete{G: warmPotential{G}, Mass: 1 / (t1 - times[n-1]), Ref: prev,
 				F:         func(x, y float64) float64 { return f(x, y, t1) },
 				Dirichlet: func(x, y float64) float64 { return uD(x, y, t1) }}
-			s, err := Solve(context.Background(), m, p, Options{Initial: prev})
+			s, err := solve(context.Background(), m, p, Options{Initial: prev}, nil)
 			if err != nil {
 				t.Fatal(err)
 			}

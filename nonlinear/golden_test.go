@@ -4,6 +4,7 @@ import (
 	"context"
 	"flag"
 	"fmt"
+	"gapbook/problem"
 	"testing"
 
 	"gapbook/internal/golden"
@@ -18,14 +19,14 @@ var update = flag.Bool("update", false, "rewrite testdata/golden.json from this 
 func TestGolden(t *testing.T) {
 	got := map[string][]float64{}
 	for _, a := range []float64{1.5, 3} {
-		man, err := Manufacture("sin(x + 2*y) + x", power(t, a))
+		man, err := problem.Manufacture("sin(x + 2*y) + x", power(t, a))
 		if err != nil {
 			t.Fatal(err)
 		}
-		f, u, _ := man.Steady(0)
+		f, u, _ := man.At(0)
 		m, err := mesh.LShape(2)
 		m = refined(t, m, err, 1)
-		r, err := Solve(context.Background(), m, Problem{G: man.G, F: f, Dirichlet: u}, Options{ResTol: 1e-13, Tol: 1e-14})
+		r, err := Solve(context.Background(), m, problem.Steady(man.G, f, u), Options{ResTol: 1e-13, Tol: 1e-14})
 		if err != nil {
 			t.Fatal(err)
 		}

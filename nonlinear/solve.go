@@ -4,8 +4,7 @@
 // continuation for degenerate or singular potentials, nested iteration over a
 // mesh hierarchy and multigrid-preconditioned inexact linear solves. The same
 // solver takes an optional mass term for implicit Euler steps of the
-// evolution problem, and Manufacture derives source and data from an exact
-// solution.
+// evolution problem.
 package nonlinear
 
 import (
@@ -19,6 +18,7 @@ import (
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // DefaultLoadDegree is the exactness degree of the quadrature rule for the
@@ -27,19 +27,19 @@ import (
 // area for smooth f, stays far below the O(h²) energy error of P1.
 const DefaultLoadDegree = 5
 
-// Problem is the minimisation problem
+// discrete is the minimisation problem the solver works on,
 //
 //	J(w) = ∫ G(∇w) − f w + (Mass/2) ∫ |w − Ref|²,   w = Dirichlet on ∂Ω,
 //
-// over P1 functions. The mass term (Mass = 1/τ, Ref = v_{n−1}) turns it into
-// one implicit Euler step of the evolution problem (MATH.md §7).
-type Problem struct {
-	// G is the potential (required).
+// over P1 functions: a problem.Problem's data at one time. The mass term
+// (Mass = 1/τ, Ref = v_{n−1}) turns it into one implicit Euler step of the
+// evolution problem (docs/math.md §7).
+type discrete struct {
 	G convex.Potential
 	// F is the source f(x, y); nil means f = 0.
 	F func(x, y float64) float64
 	// Dirichlet gives the boundary values; nil means zero. P1 sees only its
-	// values at boundary nodes (the interpolated data of MATH.md §4).
+	// values at boundary nodes (the interpolated data of docs/math.md §4.6).
 	Dirichlet func(x, y float64) float64
 	// Mass is the coefficient of the mass term (0: none).
 	Mass float64
@@ -137,12 +137,13 @@ func (e *NotConvergedError) Error() string {
 	return msg
 }
 
-// Solve minimises the discrete energy of p on the P1 space of m.
+// Solve minimises the discrete energy of p, with its data at T0, on the P1
+// space of m.
 //
 // Method: damped Newton on J (Deuflhard, Newton Methods for Nonlinear
 // Problems, Springer 2004, ch. 2–3) with Armijo backtracking on J, a full step
 // also accepted when the residual norm halves (the energy difference is then
-// lost in rounding; MATH.md §5); Hessian D²G regularised only near ∇w = 0;
+// lost in rounding; docs/math.md §5); Hessian D²G regularised only near ∇w = 0;
 // inexact linear solves by PCG with fem.Multigrid rebuilt each step and the
 // forcing terms of Eisenstat & Walker, SIAM J. Sci. Comput. 17 (1996) 16–32,
 // choice 2; nested iteration from the coarsest mesh of m's hierarchy
@@ -155,13 +156,16 @@ func (e *NotConvergedError) Error() string {
 //
 // An error is a *NotConvergedError (with the history), a context error
 // (wrapped) or a description of invalid input.
-func Solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options) (*Result, error) {
-	return solve(ctx, m, p, o, nil)
+func Solve(ctx context.Context, m *mesh.Mesh, p *problem.Problem, o Options) (*Result, error) {
+	if p == nil {
+		return nil, errors.New("newton: no problem")
+	}
+	return solve(ctx, m, discrete{G: p.G, F: p.SourceAt(p.T0), Dirichlet: p.DirichletAt(p.T0)}, o, nil)
 }
 
 // solve is Solve with the levels kept in cache (nil: none) for the next
 // call on the same mesh.
-func solve(ctx context.Context, m *mesh.Mesh, p Problem, o Options, cache *levelCache) (*Result, error) {
+func solve(ctx context.Context, m *mesh.Mesh, p discrete, o Options, cache *levelCache) (*Result, error) {
 	if m == nil {
 		return nil, errors.New("newton: no mesh")
 	}
@@ -301,7 +305,7 @@ func prolong(m *mesh.Mesh, w []float64) []float64 {
 }
 
 type solver struct {
-	p      Problem
+	p      discrete
 	o      Options
 	hist   []Step
 	reason string

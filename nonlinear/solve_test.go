@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -52,9 +53,9 @@ func checkHistory(t *testing.T, h []Step) {
 	}
 }
 
-// Closed form of CHECKS.md item 9 (1-D, f = 1 on (0, 1), u(0) = u(1) = 0):
+// Closed form of docs/checks.md item 9 (1-D, f = 1 on (0, 1), u(0) = u(1) = 0):
 // u = ((p − 1)/p)((1/2)^{p'} − |x − 1/2|^{p'}), ∫u = (1/2)^{p'}/(p' + 1)
-// [derived; CHECKS.md status D, N].
+// [derived; docs/checks.md status D, N].
 func TestInterval(t *testing.T) {
 	for _, p := range []float64{1.5, 2, 3, 4} {
 		t.Run(fmt.Sprint("p=", p), func(t *testing.T) {
@@ -65,7 +66,7 @@ func TestInterval(t *testing.T) {
 			for _, k := range []int{4, 5, 6} { // 32, 64, 128 cells
 				m, err := mesh.Interval(0, 1, 2)
 				m = refined(t, m, err, k)
-				r, err := Solve(context.Background(), m, Problem{G: power(t, p), F: func(x, y float64) float64 { return 1 }}, Options{})
+				r, err := Solve(context.Background(), m, problem.Steady(power(t, p), func(x, y float64) float64 { return 1 }, nil), Options{})
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -104,7 +105,7 @@ func TestInterval(t *testing.T) {
 	}
 }
 
-// The disk problem of CHECKS.md item 9 on inscribed polygons: the exact
+// The disk problem of docs/checks.md item 9 on inscribed polygons: the exact
 // solution restricted to the polygon, with its own (non-linear) boundary
 // values, interpolated. The H¹ error falls like h.
 func TestDisk(t *testing.T) {
@@ -127,7 +128,7 @@ func TestDisk(t *testing.T) {
 				if err != nil {
 					t.Fatal(err)
 				}
-				r, err := Solve(context.Background(), m, Problem{G: power(t, p), F: func(x, y float64) float64 { return 1 }, Dirichlet: u}, Options{})
+				r, err := Solve(context.Background(), m, problem.Steady(power(t, p), func(x, y float64) float64 { return 1 }, u), Options{})
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -163,15 +164,15 @@ func TestManufacturedRates(t *testing.T) {
 	for _, d := range domains {
 		for _, a := range []float64{1.5, 2, 3, 4} {
 			t.Run(fmt.Sprintf("%s/p=%g", d.name, a), func(t *testing.T) {
-				man, err := Manufacture(src, power(t, a))
+				man, err := problem.Manufacture(src, power(t, a))
 				if err != nil {
 					t.Fatal(err)
 				}
-				f, u, grad := man.Steady(0)
+				f, u, grad := man.At(0)
 				var h1, l2 []float64
 				for _, k := range []int{3, 4, 5} {
 					m := d.mesh(k)
-					r, err := Solve(context.Background(), m, Problem{G: man.G, F: f, Dirichlet: u}, Options{})
+					r, err := Solve(context.Background(), m, problem.Steady(man.G, f, u), Options{})
 					if err != nil {
 						t.Fatal(err)
 					}
@@ -196,14 +197,14 @@ func TestManufacturedRates(t *testing.T) {
 func TestExtremeExponents(t *testing.T) {
 	for _, a := range []float64{1.1, 1.3, 10} {
 		t.Run(fmt.Sprint("p=", a), func(t *testing.T) {
-			man, err := Manufacture("sin(x + 2*y) + x", power(t, a))
+			man, err := problem.Manufacture("sin(x + 2*y) + x", power(t, a))
 			if err != nil {
 				t.Fatal(err)
 			}
-			f, u, grad := man.Steady(0)
+			f, u, grad := man.At(0)
 			m, err := mesh.Rectangle(0, 1, 0, 1, 2, 2)
 			m = refined(t, m, err, 4)
-			r, err := Solve(context.Background(), m, Problem{G: man.G, F: f, Dirichlet: u}, Options{})
+			r, err := Solve(context.Background(), m, problem.Steady(man.G, f, u), Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -226,7 +227,7 @@ func TestExtremeExponents(t *testing.T) {
 
 // With G = |ξ|^α/α, u_D = 0 and f = 1, testing the discrete equation with
 // the solution itself gives α∫G(∇u_h) = ∫u_h, hence J(u_h) = −∫u_h/α' (the
-// flow-rate identity of MATH.md §4, exact for the discrete minimiser): its
+// flow-rate identity of docs/math.md §4, exact for the discrete minimiser): its
 // defect measures how far the returned solution is from the minimiser. The
 // relative duality gap bounds the relative energy error; the identity's
 // defect is of the order of its square root (common practice, no source:
@@ -239,7 +240,7 @@ func TestFlowRateIdentity(t *testing.T) {
 			t.Run(fmt.Sprintf("%s/p=%g", dom, a), func(t *testing.T) {
 				m := unitLoadMesh(t, dom)
 				G := power(t, a)
-				r, err := Solve(context.Background(), m, Problem{G: G, F: func(x, y float64) float64 { return 1 }}, Options{})
+				r, err := Solve(context.Background(), m, problem.Steady(G, func(x, y float64) float64 { return 1 }, nil), Options{})
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -297,7 +298,7 @@ func TestCustomSingular(t *testing.T) {
 			m := unitLoadMesh(t, dom)
 			var us [][]float64
 			for _, G := range []convex.Potential{custom, reg} {
-				r, err := Solve(context.Background(), m, Problem{G: G, F: func(x, y float64) float64 { return 1 }}, Options{Tol: 1e-13})
+				r, err := Solve(context.Background(), m, problem.Steady(G, func(x, y float64) float64 { return 1 }, nil), Options{Tol: 1e-13})
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -365,11 +366,11 @@ func TestDenseQuadratic(t *testing.T) {
 				t.Fatal(err)
 			}
 			G, _ := convex.Quadratic(1)
-			p := Problem{G: G, F: f, Dirichlet: ud}
+			p := discrete{G: G, F: f, Dirichlet: ud}
 			if c > 0 {
 				p.Mass, p.Ref = c, ref
 			}
-			r, err := Solve(context.Background(), m, p, Options{ResTol: 1e-12})
+			r, err := solve(context.Background(), m, p, Options{ResTol: 1e-12}, nil)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -420,7 +421,7 @@ func TestCustomPotential(t *testing.T) {
 	m = refined(t, m, err, 2)
 	var us [][]float64
 	for _, G := range []convex.Potential{custom, sum} {
-		r, err := Solve(context.Background(), m, Problem{G: G, F: func(x, y float64) float64 { return 10 }}, Options{ResTol: 1e-12})
+		r, err := Solve(context.Background(), m, problem.Steady(G, func(x, y float64) float64 { return 10 }, nil), Options{ResTol: 1e-12})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -436,7 +437,7 @@ func TestCustomPotential(t *testing.T) {
 func TestNotConverged(t *testing.T) {
 	m, err := mesh.Rectangle(0, 1, 0, 1, 2, 2)
 	m = refined(t, m, err, 3)
-	p := Problem{G: power(t, 3), F: func(x, y float64) float64 { return 1 }}
+	p := problem.Steady(power(t, 3), func(x, y float64) float64 { return 1 }, nil)
 	_, err = Solve(context.Background(), m, p, Options{MaxIter: 1})
 	var nc *NotConvergedError
 	if !errors.As(err, &nc) {
@@ -459,10 +460,10 @@ func TestNotConverged(t *testing.T) {
 	}
 
 	// Bad input is refused with a message, not a panic.
-	if _, err := Solve(context.Background(), m, Problem{G: p.G, Mass: 1}, Options{}); err == nil {
+	if _, err := solve(context.Background(), m, discrete{G: p.G, Mass: 1}, Options{}, nil); err == nil {
 		t.Error("mass term without reference accepted")
 	}
-	if _, err := Solve(context.Background(), m, Problem{G: p.G, F: func(x, y float64) float64 { return math.Inf(1) }}, Options{}); err == nil {
+	if _, err := Solve(context.Background(), m, problem.Steady(p.G, func(x, y float64) float64 { return math.Inf(1) }, nil), Options{}); err == nil {
 		t.Error("infinite source accepted")
 	}
 }

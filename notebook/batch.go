@@ -74,6 +74,9 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 		// Input problems: report them, then evaluate so each cell shows its own.
 		fmt.Fprintf(o.Stderr, "%s: problems in cell inputs:\n%v\n", path, err)
 	}
+	for _, n := range nb.Migration {
+		fmt.Fprintf(o.Stderr, "%s: migrated from an older format: %s\n", path, n)
+	}
 	start := time.Now()
 	cellStart := start
 	ev, err := NewEngine().Evaluate(ctx, nb, Options{Progress: func(p Progress) {

@@ -17,7 +17,7 @@ func TestRunFileExport(t *testing.T) {
 	dir := t.TempDir()
 	path := filepath.Join(dir, "e.gapbook")
 	doc := `{"gapbook":1,"title":"export","cells":[
-	 {"id":"p","kind":"problem","inputs":{"domain":"rectangle","alpha":2}},
+	 {"id":"p","kind":"problem","inputs":{"domain":"rectangle","p":2}},
 	 {"id":"m","kind":"mesh","inputs":{"problem":"p","cells":4}},
 	 {"id":"s","kind":"solve","inputs":{"mesh":"m"}},
 	 {"id":"chart","kind":"plot","inputs":{"from":"s","x":"step","y":["energy"]}},
@@ -59,7 +59,7 @@ func TestRunFileExport(t *testing.T) {
 		t.Fatalf("csv %v %v", recs, err)
 	}
 	last, _ := strconv.ParseFloat(recs[len(recs)-1][4], 64)
-	ev := evalCells(t, kc("p", "problem", map[string]any{"domain": "rectangle", "alpha": 2}),
+	ev := evalCells(t, kc("p", "problem", map[string]any{"domain": "rectangle", "p": 2}),
 		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}), kc("s", "solve", map[string]any{"mesh": "m"}))
 	if want := scalar(t, okCell(t, ev, "s"), "energy").Value; last != want {
 		t.Errorf("CSV energy %v, result %v", last, want)

@@ -3,12 +3,12 @@
 // progress and cancellation, saved as a versioned JSON file, and rendered
 // to safe HTML. Cell kinds live in a registry; a new kind is one file.
 //
-// # File format (version 1)
+// # File format (version 2; docs/format.md)
 //
 // A notebook file (*.gapbook) is one UTF-8 JSON object:
 //
 //		{
-//		  "gapbook": 1,
+//		  "gapbook": 2,
 //		  "title": "Duct flow of a shear-thinning fluid",
 //		  "cells": [
 //		    {"id": "intro", "kind": "note",
@@ -70,7 +70,8 @@
 //
 // # Notes
 //
-// Notes are markdown (CommonMark) with mathematics between $…$ and $$…$$.
+// Notes are markdown (CommonMark, rendered by goldmark in notebook/markdown)
+// with mathematics between $…$ and $$…$$.
 // Raw HTML is never rendered; links are kept only to http(s) addresses and
 // in-page anchors ("#id"); images are never loaded (their alternative text
 // is shown), so a notebook works offline and tells no server it was opened.

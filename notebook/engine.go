@@ -2,6 +2,7 @@ package notebook
 
 import (
 	"context"
+	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
@@ -245,9 +246,7 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 		pos[cc.ID] = j
 	}
 	deps := map[string]*Outcome{}
-	h := newSHA256()
-	fmt.Fprintf(h, "gapbook-cell-1\n%q\n", c.Kind)
-	writeValues(h, k, vals)
+	var depHashes []depHash
 	for _, r := range refs(k, vals) {
 		if msg := nb.refProblem(i, r, pos); msg != "" {
 			fail(r.field, msg)
@@ -264,9 +263,9 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 			return
 		}
 		deps[r.id] = d
-		fmt.Fprintf(h, "dep %q %s\n", r.id, d.Hash)
+		depHashes = append(depHashes, depHash{r.id, d.Hash})
 	}
-	out.Hash = hex.EncodeToString(h.Sum(nil))
+	out.Hash = cellHash(c.Kind, vals, depHashes)
 	if hit := e.cached(out.Hash); hit != nil {
 		out.Status, out.Results, out.Digest, out.Cached = StatusOK, hit.Results, hit.Digest, true
 		out.compareSaved(c.Saved)
@@ -330,9 +329,61 @@ func safeEvaluate(k Kind, c *Context, v Values) (r *Results, err error) {
 	return k.Evaluate(c, v)
 }
 
+type depHash struct{ id, hash string }
+
+// cellHash is the one hash of a cell's inputs (docs/format.md, "Hashes"):
+// SHA-256 of the kind, the validated inputs in canonical form and the
+// hashes of the cells it refers to, in the order of its inputs.
+func cellHash(kind string, vals Values, deps []depHash) string {
+	h := sha256.New()
+	fmt.Fprintf(h, "gapbook-cell-1\n%q\n", kind)
+	writeValues(h, vals)
+	for _, d := range deps {
+		fmt.Fprintf(h, "dep %q %s\n", d.id, d.hash)
+	}
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+// hashes returns the hash of every cell from the file's inputs alone ("" for
+// a cell whose inputs or references are invalid), with the version-1 names
+// when legacy is set (migration).
+func (nb *Notebook) hashes(legacy bool) []string {
+	out := make([]string, len(nb.Cells))
+	byID := map[string]string{}
+	for i, c := range nb.Cells {
+		k, ok := Lookup(c.Kind)
+		if !ok {
+			continue
+		}
+		vals, errs := ParseInputs(k, c.Inputs)
+		if len(errs) > 0 {
+			continue
+		}
+		var deps []depHash
+		bad := false
+		for _, r := range refs(k, vals) {
+			h := byID[r.id]
+			if h == "" {
+				bad = true
+				break
+			}
+			deps = append(deps, depHash{r.id, h})
+		}
+		if bad {
+			continue
+		}
+		if legacy {
+			vals = legacyValues(c.Kind, vals)
+		}
+		out[i] = cellHash(c.Kind, vals, deps)
+		byID[c.ID] = out[i]
+	}
+	return out
+}
+
 // writeValues writes a canonical form of validated inputs: sorted names,
 // numbers exact, so 3 and 3.0 hash alike.
-func writeValues(w interface{ Write([]byte) (int, error) }, k Kind, v Values) {
+func writeValues(w interface{ Write([]byte) (int, error) }, v Values) {
 	for _, name := range slices.Sorted(maps.Keys(v)) {
 		var s string
 		switch x := v[name].(type) {
@@ -461,9 +512,7 @@ func (nb *Notebook) States() []*Outcome {
 			out.Status, out.Err = StatusError, &CellError{Cell: c.ID, Field: errs[0].Field, Msg: errs[0].Msg}
 			continue
 		}
-		h := newSHA256()
-		fmt.Fprintf(h, "gapbook-cell-1\n%q\n", c.Kind)
-		writeValues(h, k, vals)
+		var depHashes []depHash
 		bad := false
 		for _, r := range refs(k, vals) {
 			if msg := nb.refProblem(i, r, pos); msg != "" {
@@ -477,12 +526,12 @@ func (nb *Notebook) States() []*Outcome {
 				bad = true
 				break
 			}
-			fmt.Fprintf(h, "dep %q %s\n", r.id, d.Hash)
+			depHashes = append(depHashes, depHash{r.id, d.Hash})
 		}
 		if bad {
 			continue
 		}
-		out.Hash = hex.EncodeToString(h.Sum(nil))
+		out.Hash = cellHash(c.Kind, vals, depHashes)
 		if s := c.Saved; s != nil && s.Hash == out.Hash && s.Results != nil {
 			out.Status, out.Results, out.Digest = StatusOK, s.Results, s.Results.Digest()
 		}

@@ -3,6 +3,7 @@ package notebook
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 
 	"gapbook/estimate"
@@ -38,25 +39,25 @@ func (adaptKind) Inputs() []Input {
 }
 
 func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
-	p, ok := c.Object(in.Text("problem"), "problem").(*ProblemSpec)
+	p, ok := c.Object(in.Text("problem"), "problem").(*problem.Problem)
 	if !ok {
 		return nil, FieldErr("problem", "cell %s is not a problem cell", in.Text("problem"))
 	}
-	if p.Dim != 2 {
-		return nil, FieldErr("problem", "adaptive refinement needs a 2-D domain; problem %s is an interval (use a finer mesh cell instead)", p.Cell)
+	if p.Domain.Dim() != 2 {
+		return nil, FieldErr("problem", "adaptive refinement needs a 2-D domain; problem %s is an interval (use a finer mesh cell instead)", p.Name)
 	}
 	if len(p.G.Modulus().Bounds) == 0 {
 		return nil, FieldErr("problem", "the potential %s has no proven modulus, so there are no guaranteed indicators; use a catalogue potential", p.G)
 	}
-	m0, err := p.Mesh(in.Int("cells"), 0)
+	m0, err := p.Domain.Mesh(in.Int("cells"), 0)
 	if err != nil {
 		return nil, FieldErr("cells", "%v", err)
 	}
-	cf, err := friedrichs(c, m0, p.Alpha, constBest)
+	cf, err := friedrichs(c, m0, p.Exponent(), constBest)
 	if err != nil {
 		return nil, err
 	}
-	src := p.Source()
+	src := p.SourceAt(0)
 	tol, maxNewton := in.Number("tolerance"), in.Int("max_newton")
 	var prevMesh *mesh.Mesh
 	var prevV []float64
@@ -71,7 +72,7 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 				o.Initial[i] = (prevV[pp[0]] + prevV[pp[1]]) / 2
 			}
 		}
-		r, err := nonlinear.Solve(ctx, s.Mesh, nonlinear.Problem{G: p.G, F: src, Dirichlet: p.Dirichlet()}, o)
+		r, err := nonlinear.Solve(ctx, s.Mesh, p, o)
 		if err != nil {
 			return nil, err
 		}
@@ -92,10 +93,10 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 			o.Degree = samples.Degree
 			return estimate.Equilibrate(ctx, s, p.G, v, samples.Source(), o)
 		}
-		return estimate.Equilibrate(ctx, s, p.G, v, estimate.FuncSource(s.Mesh, p.Source()), eo)
+		return estimate.Equilibrate(ctx, s, p.G, v, estimate.FuncSource(s.Mesh, p.SourceAt(0)), eo)
 	}
 	maxSteps := in.Int("max_steps")
-	run, err := estimate.Adapt(c.Context(), m0, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet()}, solve, flux,
+	run, err := estimate.Adapt(c.Context(), m0, p, solve, flux,
 		estimate.AdaptOptions{Options: estimate.Options{Degree: in.Int("degree"), Friedrichs: cf}, Target: in.Number("target"),
 			MaxCells: in.Int("max_cells"), MaxSteps: maxSteps, Share: in.Number("share"),
 			Samples: func(*fem.P1) *estimate.Samples { return samples },
@@ -111,8 +112,8 @@ func (adaptKind) Evaluate(c *Context, in Values) (*Results, error) {
 	return adaptResults(p, run, cf), nil
 }
 
-func adaptResults(p *ProblemSpec, run *estimate.AdaptRun, cf estimate.Constant) *Results {
-	mf := p.Manufactured()
+func adaptResults(p *problem.Problem, run *estimate.AdaptRun, cf estimate.Constant) *Results {
+	mf := p.Exact()
 	cols := []Column{{Name: "step"}, {Name: "cells"}, {Name: "unknowns"}, {Name: "h"}, {Name: "majorant"}, {Name: "norm_bound"}}
 	if mf != nil {
 		cols = append(cols, Column{Name: "primal_error"}, Column{Name: "efficiency"})
@@ -128,8 +129,8 @@ func adaptResults(p *ProblemSpec, run *estimate.AdaptRun, cf estimate.Constant) 
 		maj = append(maj, r.Majorant.Value)
 		if mf != nil {
 			s, _ := fem.NewP1(st.Mesh)
-			_, _, grad := mf.Steady(0)
-			mu := sum(primalError(s, p.G, st.V, grad))
+			_, _, grad := mf.At(0)
+			mu := sum(estimate.PrimalError(s, p.G, st.V, grad))
 			row = append(row, mu, r.Majorant.Value/mu)
 			errs = append(errs, mu)
 			lastMu = mu
@@ -140,7 +141,7 @@ func adaptResults(p *ProblemSpec, run *estimate.AdaptRun, cf estimate.Constant) 
 	res := &Results{
 		Scalars: []Scalar{
 			{Name: "majorant", Value: last.Result.Majorant.Value, Label: lab, Unit: "μ(v) ≤ majorant on the final mesh"},
-			{Name: "norm_bound", Value: last.Result.Norm.Value, Label: lab, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g on the final mesh", p.Alpha)},
+			{Name: "norm_bound", Value: last.Result.Norm.Value, Label: lab, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g on the final mesh", p.Exponent())},
 			{Name: "unknowns", Value: float64(last.Unknowns), Label: Reference, Unit: "free nodes of the final mesh"},
 			{Name: "steps", Value: float64(len(run.Steps)), Label: Reference, Unit: "meshes solved"},
 		},

@@ -2,19 +2,19 @@ package notebook
 
 import (
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"strings"
 
 	"gapbook/convex"
 	"gapbook/estimate"
-	"gapbook/fem"
 	"gapbook/mesh"
 )
 
 func init() { Register(boundKind{}) }
 
 // boundKind reconstructs a flux for a discrete solution and reports the
-// guaranteed two-sided bounds of MATH.md §4.
+// guaranteed two-sided bounds of docs/math.md §4.
 type boundKind struct{}
 
 // Flux strategies offered by the bound kind.
@@ -105,10 +105,10 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 	if len(p.G.Modulus().Bounds) == 0 {
 		// A formula potential has no proven modulus: refuse rather than
 		// invent one, and say what would work.
-		return nil, FieldErr("solution", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Cell)
+		return nil, FieldErr("solution", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Name)
 	}
 	c.Progress(0.1, "Friedrichs constant")
-	cf, err := friedrichs(c, sol.Mesh, p.Alpha, st.constant)
+	cf, err := friedrichs(c, sol.Mesh, p.Exponent(), st.constant)
 	if err != nil {
 		return nil, err
 	}
@@ -123,7 +123,7 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 	case fluxMinimised:
 		var y0 estimate.Flux
 		if y0, err = estimate.NewAveraged(s, p.G, sol.V); err == nil {
-			y, err = estimate.Minimise(c.Context(), s, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet()}, sol.V, y0,
+			y, err = estimate.Minimise(c.Context(), s, p, sol.V, y0,
 				estimate.MinimiseOptions{Friedrichs: cf, Degree: st.degree})
 		}
 	default:
@@ -140,9 +140,9 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 		}
 		return nil, FieldErr("flux", "%v", err)
 	}
-	opt := estimate.Options{Degree: st.degree, Friedrichs: cf}
+	opt := estimate.Options{Degree: st.degree, Friedrichs: cf, Samples: samples}
 	c.Progress(0.5, "bounds")
-	r, err := estimate.Estimate(s, estimate.Problem{G: p.G, F: p.Source(), Dirichlet: p.Dirichlet(), Samples: samples}, sol.V, y, opt)
+	r, err := estimate.Estimate(s, p, sol.V, y, opt)
 	if err != nil {
 		return nil, FieldErr("solution", "%v", err)
 	}
@@ -156,13 +156,13 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 func boundSamples(sol *Solution, degree int) (*estimate.Samples, error) {
 	p := sol.Problem
 	if r := sol.Result; r != nil && r.Load != nil {
-		if sm, err := estimate.SamplesOf(sol.Space, p.Source(), r.LoadDegree, r.Load); err == nil {
+		if sm, err := estimate.SamplesOf(sol.Space, p.SourceAt(0), r.LoadDegree, r.Load); err == nil {
 			return sm, nil
 		}
 		// A load rule the bounds cannot use (negative weights): sample f
 		// at the bounds' own rule instead.
 	}
-	return estimate.NewSamples(sol.Space, p.Source(), degree)
+	return estimate.NewSamples(sol.Space, p.SourceAt(0), degree)
 }
 
 func friedrichs(c *Context, m *mesh.Mesh, alpha float64, which string) (estimate.Constant, error) {
@@ -195,7 +195,7 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 	}
 	add("majorant", r.Majorant.Value, lab, "μ(v) = J(v) − J(u) ≤ majorant")
 	add("dual_majorant", r.Dual.Value, lab, "μ*(y*) = ∫ D_G(∇u, y*) ≤ dual_majorant")
-	add("norm_bound", r.Norm.Value, lab, fmt.Sprintf("‖∇(u − v)‖ in L^%g ≤ norm_bound", p.Alpha))
+	add("norm_bound", r.Norm.Value, lab, fmt.Sprintf("‖∇(u − v)‖ in L^%g ≤ norm_bound", p.Exponent()))
 	add("energy_low", r.Energy-r.Majorant.Value, lab, "J(u) ≥ J(v) − majorant")
 	add("discrete_energy", r.Energy, Estimate, fmt.Sprintf("J(v): ∫ G(∇v) exactly, ∫ f v by a rule of degree %d", r.Quadrature.ResidualDegree))
 	add("gap_integral", r.D, Estimate, "∫ D_G(∇v, y*), quadrature")
@@ -205,16 +205,16 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 	if !math.IsNaN(r.YoungRHS) {
 		add("young_rhs", r.YoungRHS, lab, "right side of the Young form at that θ")
 	}
-	if mf := p.Manufactured(); mf != nil {
-		_, _, grad := mf.Steady(0)
-		per := primalError(sol.Space, p.G, sol.V, grad)
+	if mf := p.Exact(); mf != nil {
+		_, _, grad := mf.At(0)
+		per := estimate.PrimalError(sol.Space, p.G, sol.V, grad)
 		mu := sum(per)
-		dual := dualError(sol.Space, p.G, b.Flux, grad, st.degree)
+		dual := estimate.DualError(sol.Space, p.G, b.Flux, grad, st.degree)
 		note := ""
 		if interpolatedData(r.Assumptions) {
 			note = "; the bounds concern the interpolated boundary data, this u does not, so efficiency may fall below 1"
 		}
-		add("primal_error", mu, Reference, fmt.Sprintf("μ(v) = ∫ D_G(∇v, ∂G(∇u)) from the exact solution, quadrature degree %d%s", errorDegree, note))
+		add("primal_error", mu, Reference, fmt.Sprintf("μ(v) = ∫ D_G(∇v, ∂G(∇u)) from the exact solution, quadrature degree %d%s", estimate.ErrorDegree, note))
 		add("dual_error", dual, Reference, "μ*(y*) = ∫ D_G(∇u, y*) from the exact solution")
 		add("efficiency", r.Majorant.Value/mu, Reference, "majorant / μ(v) (≥ 1)")
 		add("total_efficiency", (r.Majorant.Value+r.Dual.Value)/(mu+dual), Reference, "(majorant + dual_majorant) / (μ(v) + μ*(y*))")
@@ -266,15 +266,15 @@ func addMinorant(c *Context, b *Bounds, st boundSettings, res *Results) error {
 		}
 		return FieldErr("minorant", "solve on the refined mesh: %v", err)
 	}
-	jw := estimate.Energy(w.Space, p.G, p.Source(), w.V, r.Degree)
+	jw := estimate.Energy(w.Space, p.G, p.SourceAt(0), w.V, r.Degree)
 	mu := estimate.Minorant(r.Energy, jw)
 	lab := convexLabel(r.Label)
 	e := estimate.EnergyInterval(r, mu)
 	res.Scalars = append(res.Scalars,
 		Scalar{Name: "minorant", Value: mu, Label: lab, Unit: "μ(v) ≥ J(v) − J(w), w on the refined mesh"},
 		Scalar{Name: "energy_high", Value: e.Hi, Label: lab, Unit: "J(u) ≤ J(w)"})
-	if p.Family == potPower && p.ZeroDirichlet() && !math.IsNaN(p.FConst) && p.FConst != 0 {
-		q, err := estimate.FlowRate(e, p.Alpha, p.FConst)
+	if p.Family == problem.Power && p.ZeroDirichlet() && !math.IsNaN(p.FConst) && p.FConst != 0 {
+		q, err := estimate.FlowRate(e, p.Exponent(), p.FConst)
 		if err == nil {
 			res.Scalars = append(res.Scalars,
 				Scalar{Name: "flow_low", Value: q.Lo, Label: lab, Unit: "Q = ∫u ≥ flow_low (power potential, u_D = 0, constant f)"},
@@ -308,7 +308,7 @@ func coarseData(sol *Solution, fine *mesh.Mesh) func(x, y float64) float64 {
 			vals[q] = (sol.V[pp[0]] + sol.V[pp[1]]) / 2
 		}
 	}
-	uD := sol.Problem.Dirichlet()
+	uD := sol.Problem.DirichletAt(0)
 	return func(x, y float64) float64 {
 		if v, ok := vals[mesh.Point{X: x, Y: y}]; ok {
 			return v
@@ -320,34 +320,10 @@ func coarseData(sol *Solution, fine *mesh.Mesh) func(x, y float64) float64 {
 	}
 }
 
-// dualError returns μ*(y*) = ∫ D_G(∇u, y*) by quadrature of the given
-// degree, with y* evaluated through the Flux interface.
-func dualError(s *fem.P1, G convex.Potential, y estimate.Flux, grad func(x, y float64) (float64, float64), degree int) float64 {
-	r := s.Rule(max(degree, errorDegree))
-	dim := s.Mesh.Dim
-	wsum := 0.0
-	for _, w := range r.Weights {
-		wsum += w
+func sum(v []float64) float64 {
+	t := 0.0
+	for _, x := range v {
+		t += x
 	}
-	total := 0.0
-	for k, cl := range s.Mesh.Cells {
-		acc := 0.0
-		for q, pt := range r.Points {
-			lam := [3]float64{1 - pt[0] - pt[1], pt[0], pt[1]}
-			if dim == 1 {
-				lam = [3]float64{1 - pt[0], pt[0], 0}
-			}
-			var x, yy float64
-			for a := range dim + 1 {
-				n := s.Mesh.Nodes[cl[a]]
-				x += lam[a] * n.X
-				yy += lam[a] * n.Y
-			}
-			ys, _ := y.At(k, lam)
-			gx, gy := grad(x, yy)
-			acc += r.Weights[q] * convex.Gap(G, [2]float64{gx, gy}, ys)
-		}
-		total += acc / wsum * s.Area[k]
-	}
-	return total
+	return t
 }

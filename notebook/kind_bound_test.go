@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"os"
 	"path/filepath"
@@ -22,7 +23,7 @@ import (
 // numbers the packages compute when called directly for the same problem.
 func TestBoundMatchesDirectCalls(t *testing.T) {
 	doc := `{"gapbook":1,"title":"direct","cells":[
-	 {"id":"p","kind":"problem","inputs":{"domain":"L-shape","alpha":3,"f":"1"}},
+	 {"id":"p","kind":"problem","inputs":{"domain":"L-shape","p":3,"f":"1"}},
 	 {"id":"m","kind":"mesh","inputs":{"problem":"p","cells":4}},
 	 {"id":"s","kind":"solve","inputs":{"mesh":"m"}},
 	 {"id":"b","kind":"bound","inputs":{"solution":"s","order":1,"newton":2}}]}`
@@ -47,7 +48,7 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 	}
 	G, _ := convex.Power(3)
 	one := func(x, y float64) float64 { return 1 }
-	sol, err := nonlinear.Solve(context.Background(), m, nonlinear.Problem{G: G, F: one}, nonlinear.Options{Tol: 1e-10, MaxIter: 60})
+	sol, err := nonlinear.Solve(context.Background(), m, problem.Steady(G, one, nil), nonlinear.Options{Tol: 1e-10, MaxIter: 60})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -65,12 +66,12 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r, err := estimate.Estimate(s, estimate.Problem{G: G, F: one, Samples: sm}, sol.U, y, estimate.Options{Degree: 8, Friedrichs: cf})
+	r, err := estimate.Estimate(s, problem.Steady(G, one, nil), sol.U, y, estimate.Options{Degree: 8, Friedrichs: cf, Samples: sm})
 	if err != nil {
 		t.Fatal(err)
 	}
 	fine, _ := m.Refine()
-	w, err := nonlinear.Solve(context.Background(), fine, nonlinear.Problem{G: G, F: one}, nonlinear.Options{Tol: 1e-10, MaxIter: 60})
+	w, err := nonlinear.Solve(context.Background(), fine, problem.Steady(G, one, nil), nonlinear.Options{Tol: 1e-10, MaxIter: 60})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -120,7 +121,7 @@ func TestBoundEnclosesExactError(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(fmt.Sprint(tc.domain, tc.alpha, tc.flux), func(t *testing.T) {
 			ev := evalCells(t,
-				kc("p", "problem", map[string]any{"domain": tc.domain, "alpha": tc.alpha, "f": "", "exact": tc.exact}),
+				kc("p", "problem", map[string]any{"domain": tc.domain, "p": tc.alpha, "f": "", "exact": tc.exact}),
 				kc("m", "mesh", map[string]any{"problem": "p", "cells": 8}),
 				kc("s", "solve", map[string]any{"mesh": "m"}),
 				kc("b", "bound", map[string]any{"solution": "s", "flux": tc.flux}))
@@ -164,7 +165,7 @@ func TestBoundEnclosesExactError(t *testing.T) {
 // majorant (estimate.Minimise's contract).
 func TestBoundMinimisedBelowAveraged(t *testing.T) {
 	cells := []string{
-		kc("p", "problem", map[string]any{"domain": "L-shape", "alpha": 1.5}),
+		kc("p", "problem", map[string]any{"domain": "L-shape", "p": 1.5}),
 		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
 		kc("s", "solve", map[string]any{"mesh": "m"}),
 		kc("a", "bound", map[string]any{"solution": "s", "flux": "averaged", "minorant": false}),
@@ -179,14 +180,14 @@ func TestBoundMinimisedBelowAveraged(t *testing.T) {
 
 // The flow-rate and energy intervals hold the exact values of the 1-D
 // problem f = 1 on (0, 1): ∫u = (1/2)^{α'}/(α' + 1), J(u) = −∫u/α'
-// (CHECKS.md item 9). For α = 3 the integrand G*(y*) = (2/3)|y*|^{3/2} is
+// (docs/checks.md item 9). For α = 3 the integrand G*(y*) = (2/3)|y*|^{3/2} is
 // not a polynomial where y* is small; the bounds integrate such cells by
 // adaptive subdivision and add the estimated remaining error, so the
 // intervals must hold with no allowance.
 func TestBoundFlowRateInterval(t *testing.T) {
 	for _, alpha := range []float64{1.5, 3} {
 		ev := evalCells(t,
-			kc("p", "problem", map[string]any{"domain": "interval", "alpha": alpha}),
+			kc("p", "problem", map[string]any{"domain": "interval", "p": alpha}),
 			kc("m", "mesh", map[string]any{"problem": "p", "cells": 32}),
 			kc("s", "solve", map[string]any{"mesh": "m"}),
 			kc("b", "bound", map[string]any{"solution": "s"}))
@@ -209,7 +210,7 @@ func TestBoundFlowRateInterval(t *testing.T) {
 // says why, naming its input.
 func TestBoundRefusesWithoutModulus(t *testing.T) {
 	ev := evalCells(t,
-		kc("p", "problem", map[string]any{"domain": "rectangle", "potential": "formula", "g": "t^2/2 + t^4/4", "alpha": 4}),
+		kc("p", "problem", map[string]any{"domain": "rectangle", "potential": "formula", "g": "t^2/2 + t^4/4", "p": 4}),
 		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
 		kc("s", "solve", map[string]any{"mesh": "m"}),
 		kc("b", "bound", map[string]any{"solution": "s"}))
@@ -221,18 +222,18 @@ func TestBoundRefusesWithoutModulus(t *testing.T) {
 }
 
 // Constants against published values: the sharp 1-D Friedrichs constant
-// (CHECKS.md item 1), and eigenvalue brackets around 2π² on the unit square
+// (docs/checks.md item 1), and eigenvalue brackets around 2π² on the unit square
 // (item 2) and 9.6397238440219 on the L-shape (item 3, Betcke & Trefethen
 // 2005).
 func TestConstantKind(t *testing.T) {
 	ev := evalCells(t,
-		kc("i", "problem", map[string]any{"domain": "interval", "alpha": 3}),
+		kc("i", "problem", map[string]any{"domain": "interval", "p": 3}),
 		kc("mi", "mesh", map[string]any{"problem": "i", "cells": 64}),
 		kc("ci", "constant", map[string]any{"mesh": "mi"}),
-		kc("sq", "problem", map[string]any{"domain": "rectangle", "alpha": 2}),
+		kc("sq", "problem", map[string]any{"domain": "rectangle", "p": 2}),
 		kc("ms", "mesh", map[string]any{"problem": "sq", "cells": 8}),
 		kc("cs", "constant", map[string]any{"mesh": "ms", "eigenvalue": false}),
-		kc("l", "problem", map[string]any{"domain": "L-shape", "alpha": 2}),
+		kc("l", "problem", map[string]any{"domain": "L-shape", "p": 2}),
 		kc("ml", "mesh", map[string]any{"problem": "l", "cells": 8}),
 		kc("cl", "constant", map[string]any{"mesh": "ml", "eigenvalue": false}),
 	)
@@ -240,9 +241,9 @@ func TestConstantKind(t *testing.T) {
 	if c := scalar(t, ri, "width_bound"); math.Abs(c.Value-0.3281925257) > 1e-9 || c.Label != Guaranteed {
 		t.Errorf("width bound %v, want 0.3281925257 (guaranteed)", c)
 	}
-	// The P1 eigenvalue lies above λ_3 = 28.2887619760 (CHECKS.md item 1),
+	// The P1 eigenvalue lies above λ_3 = 28.2887619760 (docs/checks.md item 1),
 	// close to it on 64 cells.
-	if l := scalar(t, ri, "alpha_eigenvalue"); l.Value < 28.2887619760 || l.Value > 28.2887619760*1.01 || l.Label != Estimate {
+	if l := scalar(t, ri, "p_eigenvalue"); l.Value < 28.2887619760 || l.Value > 28.2887619760*1.01 || l.Label != Estimate {
 		t.Errorf("α-eigenvalue %v, want just above 28.2887619760 (estimate)", l)
 	}
 	for _, tc := range []struct {
@@ -258,7 +259,7 @@ func TestConstantKind(t *testing.T) {
 			t.Errorf("%s: Friedrichs bound %g below the exact λ₁^{-1/2} = %g", tc.id, f, 1/math.Sqrt(tc.lambda))
 		}
 	}
-	// Payne–Weinberger d/π on the convex unit square (CHECKS.md item 5).
+	// Payne–Weinberger d/π on the convex unit square (docs/checks.md item 5).
 	if p := scalar(t, okCell(t, ev, "cs"), "poincare_bound").Value; math.Abs(p-math.Sqrt2/math.Pi) > 1e-12 {
 		t.Errorf("Poincaré bound %g, want √2/π", p)
 	}

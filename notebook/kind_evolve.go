@@ -2,6 +2,7 @@ package notebook
 
 import (
 	"fmt"
+	"gapbook/problem"
 
 	"gapbook/estimate"
 	"gapbook/fem"
@@ -11,7 +12,7 @@ import (
 func init() { Register(evolveKind{}) }
 
 // evolveKind integrates the evolution problem in time and accumulates the
-// space-time bounds of MATH.md §7 step by step.
+// space-time bounds of docs/math.md §7 step by step.
 type evolveKind struct{}
 
 // Time forms of the flux offered by the evolve kind.
@@ -46,17 +47,17 @@ func (evolveKind) Evaluate(c *Context, in Values) (*Results, error) {
 	}
 	p := d.Problem
 	if !(p.T > 0) {
-		return nil, FieldErr("mesh", "problem %s has no time horizon; set its input T > 0", p.Cell)
+		return nil, FieldErr("mesh", "problem %s has no time horizon; set its input T > 0", p.Name)
 	}
 	if len(p.G.Modulus().Bounds) == 0 {
-		return nil, FieldErr("mesh", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Cell)
+		return nil, FieldErr("mesh", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Name)
 	}
 	m := d.Mesh
 	sp, err := fem.NewP1(m)
 	if err != nil {
 		return nil, FieldErr("mesh", "%v", err)
 	}
-	po := estimate.ParabolicOptions{InTime: estimate.LinearInTime,
+	po := estimate.EvolutionOptions{InTime: estimate.LinearInTime,
 		Equilibrate: estimate.EquilibrateOptions{Order: in.Int("order")}}
 	if in.Text("flux") == fluxAveraged {
 		po.Kind = estimate.AveragedFlux
@@ -64,25 +65,25 @@ func (evolveKind) Evaluate(c *Context, in Values) (*Results, error) {
 	if in.Text("in_time") == timeConstant {
 		po.InTime = estimate.ConstantInTime
 	}
-	cf, err := friedrichs(c, m, p.Alpha, constBest)
+	cf, err := friedrichs(c, m, p.Exponent(), constBest)
 	if err != nil {
 		return nil, err
 	}
 	po.Friedrichs = cf
-	if mf := p.Manufactured(); mf != nil {
-		mg := p.Manufactured()
+	if mf := p.Exact(); mf != nil {
+		mg := p.Exact()
 		po.Exact = &estimate.ExactSolution{U: mf.U, Grad: mg.Grad, Split: 2, TimePoints: 3}
 	}
-	f3, uD3, u0 := p.Source3(), p.Dirichlet3(), p.Initial()
-	b, err := estimate.NewParabolic(sp, estimate.ParabolicProblem{G: p.G, F: f3, U0: u0}, po)
+	// The data with their own scratch space, for the solver and the bounds.
+	ev := problem.Evolution(p.G, p.Source(), p.Boundary(), p.Initial(), 0, p.T)
+	b, err := estimate.NewEvolution(sp, ev, po)
 	if err != nil {
 		return nil, FieldErr("mesh", "%v", err)
 	}
 	steps := in.Int("steps")
-	ev := nonlinear.Evolution{G: p.G, F: f3, Dirichlet: uD3, U0: u0, T0: 0, T: p.T, Steps: steps}
 	var table Table
 	table = Table{Name: "steps", Title: "time steps", Columns: []Column{{Name: "t"}, {Name: "newton"}, {Name: "cg"}}}
-	run, err := nonlinear.Evolve(c.Context(), m, ev, nonlinear.EvolveOptions{
+	run, err := nonlinear.Evolve(c.Context(), m, ev, nonlinear.EvolveOptions{Steps: steps,
 		Newton: nonlinear.Options{Tol: in.Number("tolerance"), MaxIter: in.Int("max_newton")},
 		// The bounds reuse the samples of f the solver's load took.
 		Load: b.LoadSamples,
@@ -105,7 +106,7 @@ func (evolveKind) Evaluate(c *Context, in Values) (*Results, error) {
 		{Name: "bound", Value: r.Split.Value, Label: lab, Unit: "sup_t S(t) ≤ bound, S = ∫ D_G(∇v, ∂G(∇u)) + ∫ D_G(∇u, y*) + ½‖e(t)‖² over (0, t)"},
 		{Name: "modulus_bound", Value: r.Modulus.Value, Label: convexLabel(r.Modulus.Label), Unit: "the same with the global Friedrichs constant"},
 		{Name: "constant_free", Value: r.ConstantFree.Value, Label: convexLabel(r.ConstantFree.Label), Unit: "S(T) ≤ constant_free (Gronwall form, no modulus, no constant)"},
-		{Name: "norm_bound", Value: r.Norm.Value, Label: lab, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g over space and time", p.Alpha)},
+		{Name: "norm_bound", Value: r.Norm.Value, Label: lab, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g over space and time", p.Exponent())},
 		{Name: "max_error_bound", Value: r.Final.Value, Label: lab, Unit: "max_t ‖u(t) − v(t)‖ in L²"},
 		{Name: "initial_error", Value: r.Initial, Label: Estimate, Unit: "½‖u0 − v(0)‖², quadrature"},
 		{Name: "space_part", Value: r.Space, Label: Estimate, Unit: "share of the bound that a finer mesh reduces"},

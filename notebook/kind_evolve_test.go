@@ -8,7 +8,7 @@ import (
 
 // The space-time bound of an evolve cell lies above the true error measure
 // sup_t S(t) computed from the exact solution, and so does the max-in-time
-// L² bound above ‖e(T)‖ (MATH.md §7, (P-MAJ)).
+// L² bound above ‖e(T)‖ (docs/math.md §7, (P-MAJ)).
 func TestEvolveBoundsExactError(t *testing.T) {
 	cases := []struct {
 		domain, exact string
@@ -24,7 +24,7 @@ func TestEvolveBoundsExactError(t *testing.T) {
 	for _, tc := range cases {
 		t.Run(fmt.Sprint(tc.domain, tc.alpha, tc.flux), func(t *testing.T) {
 			ev := evalCells(t,
-				kc("p", "problem", map[string]any{"domain": tc.domain, "alpha": tc.alpha, "f": "", "exact": tc.exact, "T": 0.25}),
+				kc("p", "problem", map[string]any{"domain": tc.domain, "p": tc.alpha, "f": "", "exact": tc.exact, "T": 0.25}),
 				kc("m", "mesh", map[string]any{"problem": "p", "cells": tc.cells}),
 				kc("e", "evolve", map[string]any{"mesh": "m", "steps": tc.steps, "flux": tc.flux, "in_time": tc.inTime}))
 			r := okCell(t, ev, "e")

@@ -2,6 +2,7 @@ package notebook
 
 import (
 	"fmt"
+	"gapbook/problem"
 	"math"
 
 	"gapbook/mesh"
@@ -34,16 +35,16 @@ func (meshKind) Inputs() []Input {
 
 // Discretisation is the object a mesh cell hands on (name "mesh").
 type Discretisation struct {
-	Problem *ProblemSpec
+	Problem *problem.Problem
 	Mesh    *mesh.Mesh
 }
 
 func (meshKind) Evaluate(c *Context, in Values) (*Results, error) {
-	p, ok := c.Object(in.Text("problem"), "problem").(*ProblemSpec)
+	p, ok := c.Object(in.Text("problem"), "problem").(*problem.Problem)
 	if !ok {
 		return nil, FieldErr("problem", "cell %s is not a problem cell", in.Text("problem"))
 	}
-	m, err := p.Mesh(in.Int("cells"), in.Number("h"))
+	m, err := p.Domain.Mesh(in.Int("cells"), in.Number("h"))
 	if err != nil {
 		field := "cells"
 		if in.Number("h") > 0 {
@@ -64,7 +65,7 @@ func (meshKind) Evaluate(c *Context, in Values) (*Results, error) {
 
 // meshResults describes a mesh: sizes as exact numbers and, when small,
 // the mesh itself coloured by cell diameter.
-func meshResults(p *ProblemSpec, m *mesh.Mesh) *Results {
+func meshResults(p *problem.Problem, m *mesh.Mesh) *Results {
 	// Counts and sizes are exact properties of the discretisation, not
 	// approximations or bounds: they carry the label of outside values.
 	r := &Results{

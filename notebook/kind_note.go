@@ -1,5 +1,7 @@
 package notebook
 
+import "gapbook/notebook/markdown"
+
 func init() { Register(note{}) }
 
 // note is text in markdown with mathematics; it computes nothing.
@@ -13,4 +15,4 @@ func (note) Inputs() []Input {
 func (note) Evaluate(*Context, Values) (*Results, error) { return &Results{}, nil }
 
 // RenderHTML renders the note's markdown under the policy of Markdown.
-func (note) RenderHTML(in Values, _ *Results) string { return Markdown(in.Text("text")) }
+func (note) RenderHTML(in Values, _ *Results) string { return markdown.Render(in.Text("text")) }

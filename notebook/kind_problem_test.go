@@ -65,13 +65,13 @@ func TestProblemValidation(t *testing.T) {
 		{"t without horizon", map[string]any{"f": "x + t"}, `cell duct: input f: unknown name "t" at column 5; allowed variables: x, y`},
 		{"y in 1-D", map[string]any{"domain": "interval", "exact": "x*y"}, `cell duct: input exact: unknown name "y" at column 3; allowed variables: x`},
 		{"t with horizon", map[string]any{"f": "x + t", "T": 1, "u0": "sn"}, `cell duct: input u0: unknown name "sn" at column 1; allowed variables: x, y, t`},
-		{"alpha range", map[string]any{"alpha": 1}, "cell duct: input alpha: want a number > 1 and ≤ 100, got 1"},
+		{"alpha range", map[string]any{"p": 1}, "cell duct: input p: want a number > 1 and ≤ 100, got 1"},
 		{"rectangle", map[string]any{"domain": "rectangle", "x_min": 2}, "cell duct: input x_max: want x_max > x_min = 2, got 1"},
 		{"polygon", map[string]any{"domain": "polygon", "vertices": []float64{0, 0, 1, 0, 1}}, "cell duct: input vertices: want x1, y1, x2, y2, … for at least 3 vertices"},
-		{"power sum", map[string]any{"potential": "power sum", "alpha": 1.5}, "cell duct: input alpha: want α > 2 for the power sum"},
+		{"power sum", map[string]any{"potential": "power sum", "p": 1.5}, "cell duct: input p: want p > 2 for the power sum"},
 		{"empty f", map[string]any{"f": ""}, "cell duct: input f: empty; give a source f, or an exact solution"},
 		{"formula empty", map[string]any{"potential": "formula"}, "cell duct: input g: empty;"},
-		{"not convex", map[string]any{"potential": "formula", "g": "t^3/3 - t^2", "alpha": 3}, "cell duct: input g: "},
+		{"not convex", map[string]any{"potential": "formula", "g": "t^3/3 - t^2", "p": 3}, "cell duct: input g: "},
 		{"bad constant", map[string]any{"f": "log(0)"}, "cell duct: input f: the constant log(0) is not a finite number"},
 	}
 	for _, tc := range cases {
@@ -93,7 +93,7 @@ func TestFailingCellIsolated(t *testing.T) {
 	ev := evalCells(t,
 		kc("bad", "problem", map[string]any{"f": "sin("}),
 		kc("badmesh", "mesh", map[string]any{"problem": "bad"}),
-		kc("good", "problem", map[string]any{"domain": "rectangle", "alpha": 2}),
+		kc("good", "problem", map[string]any{"domain": "rectangle", "p": 2}),
 		kc("mesh", "mesh", map[string]any{"problem": "good", "cells": 4}),
 		kc("solve", "solve", map[string]any{"mesh": "mesh"}),
 	)
@@ -107,7 +107,7 @@ func TestFailingCellIsolated(t *testing.T) {
 // and the summary of the problem names its parts.
 func TestProblemResults(t *testing.T) {
 	ev := evalCells(t,
-		kc("p", "problem", map[string]any{"domain": "disk polygon", "sides": 6, "radius": 2, "potential": "regularised power", "alpha": 1.5, "epsilon": 0.1}),
+		kc("p", "problem", map[string]any{"domain": "disk polygon", "sides": 6, "radius": 2, "potential": "regularised power", "p": 1.5, "epsilon": 0.1}),
 		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4, "refinements": 1}),
 	)
 	r := okCell(t, ev, "p")
@@ -163,14 +163,14 @@ func TestMeshSizes(t *testing.T) {
 }
 
 // The discrete energy of the solve cell for f = 1 on (0, 1) lies above the
-// exact J(u) = −∫u/α' with ∫u = (1/2)^{α'}/(α' + 1) (CHECKS.md item 9; a
+// exact J(u) = −∫u/α' with ∫u = (1/2)^{α'}/(α' + 1) (docs/checks.md item 9; a
 // P1 minimiser has J(v) ≥ J(u), and ∫ f v is exact for f = 1), and
 // approaches it.
 func TestSolveEnergyInterval(t *testing.T) {
 	for _, alpha := range []float64{1.5, 2, 4} {
 		t.Run(fmt.Sprint(alpha), func(t *testing.T) {
 			ev := evalCells(t,
-				kc("p", "problem", map[string]any{"domain": "interval", "alpha": alpha}),
+				kc("p", "problem", map[string]any{"domain": "interval", "p": alpha}),
 				kc("m", "mesh", map[string]any{"problem": "p", "cells": 64}),
 				kc("s", "solve", map[string]any{"mesh": "m"}))
 			r := okCell(t, ev, "s")
@@ -193,7 +193,7 @@ func TestSolveGradientErrorRate(t *testing.T) {
 	var errs []float64
 	for _, n := range []int{8, 16} {
 		ev := evalCells(t,
-			kc("p", "problem", map[string]any{"domain": "rectangle", "alpha": 2, "f": "", "exact": "sin(pi*x)*sin(pi*y) + x*y"}),
+			kc("p", "problem", map[string]any{"domain": "rectangle", "p": 2, "f": "", "exact": "sin(pi*x)*sin(pi*y) + x*y"}),
 			kc("m", "mesh", map[string]any{"problem": "p", "cells": n}),
 			kc("s", "solve", map[string]any{"mesh": "m"}))
 		r := okCell(t, ev, "s")

@@ -3,9 +3,9 @@ package notebook
 import (
 	"errors"
 	"fmt"
-	"math"
+	"gapbook/problem"
 
-	"gapbook/convex"
+	"gapbook/estimate"
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
@@ -15,11 +15,6 @@ func init() { Register(solveKind{}) }
 
 // solveKind minimises the discrete energy on a mesh by Newton's method.
 type solveKind struct{}
-
-// errorDegree is the exactness degree of the quadrature of errors against
-// an exact solution: far above the O(h) accuracy of P1 gradients, so the
-// quadrature error does not show in the reported digits on usual meshes.
-const errorDegree = 8
 
 func (solveKind) Name() string { return "solve" }
 func (solveKind) Doc() string {
@@ -37,7 +32,7 @@ func (solveKind) Inputs() []Input {
 
 // Solution is the object a solve cell hands on (name "solution").
 type Solution struct {
-	Problem *ProblemSpec
+	Problem *problem.Problem
 	Mesh    *mesh.Mesh
 	Space   *fem.P1
 	// V holds the nodal values of the discrete solution.
@@ -62,18 +57,18 @@ func (solveKind) Evaluate(c *Context, in Values) (*Results, error) {
 
 // solveOn runs Newton on m for p and wraps the answer; a failed solve
 // names the tolerance input so that the user knows what to change.
-func solveOn(c *Context, p *ProblemSpec, m *mesh.Mesh, tol float64, maxNewton int) (*Solution, error) {
-	return solveWith(c, p, m, p.Dirichlet(), tol, maxNewton)
+func solveOn(c *Context, p *problem.Problem, m *mesh.Mesh, tol float64, maxNewton int) (*Solution, error) {
+	return solveWith(c, p, m, p.DirichletAt(0), tol, maxNewton)
 }
 
 // solveWith is solveOn with other boundary data.
-func solveWith(c *Context, p *ProblemSpec, m *mesh.Mesh, uD func(x, y float64) float64, tol float64, maxNewton int) (*Solution, error) {
+func solveWith(c *Context, p *problem.Problem, m *mesh.Mesh, uD func(x, y float64) float64, tol float64, maxNewton int) (*Solution, error) {
 	s, err := fem.NewP1(m)
 	if err != nil {
 		return nil, err
 	}
 	prog := 0
-	r, err := nonlinear.Solve(c.Context(), m, nonlinear.Problem{G: p.G, F: p.Source(), Dirichlet: uD},
+	r, err := nonlinear.Solve(c.Context(), m, p.WithDirichlet(uD),
 		nonlinear.Options{Tol: tol, MaxIter: maxNewton, Progress: func(st nonlinear.Step) {
 			prog++
 			c.Progress(1-1/float64(prog+1), fmt.Sprintf("Newton step %d, level %d, decrement %.1e", prog, st.Level, st.Decrement))
@@ -106,12 +101,12 @@ func solutionResults(sol *Solution) *Results {
 		Tables:  []Table{historyTable(r.History)},
 		Objects: map[string]any{"solution": sol},
 	}
-	if mf := sol.Problem.Manufactured(); mf != nil {
-		_, u, grad := mf.Steady(0)
-		e := gradientError(sol.Space, sol.V, grad, sol.Problem.Alpha)
+	if mf := sol.Problem.Exact(); mf != nil {
+		_, u, grad := mf.At(0)
+		e := estimate.GradientError(sol.Space, sol.V, grad, sol.Problem.Exponent())
 		res.Scalars = append(res.Scalars,
-			Scalar{Name: "gradient_error", Value: e, Label: Reference, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g against the exact solution, quadrature degree %d", sol.Problem.Alpha, errorDegree)},
-			Scalar{Name: "max_nodal_error", Value: maxNodalError(sol.Mesh, sol.V, u), Label: Reference, Unit: "largest |u − v| at the nodes"})
+			Scalar{Name: "gradient_error", Value: e, Label: Reference, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g against the exact solution, quadrature degree %d", sol.Problem.Exponent(), estimate.ErrorDegree)},
+			Scalar{Name: "max_nodal_error", Value: estimate.MaxNodalError(sol.Mesh, sol.V, u), Label: Reference, Unit: "largest |u − v| at the nodes"})
 	}
 	m := sol.Mesh
 	if m.Dim == 1 {
@@ -132,65 +127,4 @@ func historyTable(h []nonlinear.Step) Table {
 			s.Energy, s.Decrement, s.Residual, s.StepLength, float64(s.CG)})
 	}
 	return t
-}
-
-// cellIntegral returns Σ_T ∫_T φ(k, x, y) by the rule of the given degree
-// on every cell; the reference weights are rescaled to the cell measure.
-func cellIntegral(s *fem.P1, degree int, phi func(k int, x, y float64) float64) []float64 {
-	r := s.Rule(degree)
-	nq := r.Len()
-	pts := make([]mesh.Point, s.Mesh.NumCells()*nq)
-	s.QuadPoints(r, pts)
-	wsum := 0.0
-	for _, w := range r.Weights {
-		wsum += w
-	}
-	out := make([]float64, s.Mesh.NumCells())
-	for k := range out {
-		acc := 0.0
-		for q := range nq {
-			p := pts[k*nq+q]
-			acc += r.Weights[q] * phi(k, p.X, p.Y)
-		}
-		out[k] = acc / wsum * s.Area[k]
-	}
-	return out
-}
-
-func sum(v []float64) float64 {
-	t := 0.0
-	for _, x := range v {
-		t += x
-	}
-	return t
-}
-
-// gradientError returns ‖∇(u − v)‖_α by quadrature of degree errorDegree.
-func gradientError(s *fem.P1, v []float64, grad func(x, y float64) (float64, float64), alpha float64) float64 {
-	gv := make([][2]float64, s.Mesh.NumCells())
-	s.Gradient(v, gv)
-	per := cellIntegral(s, errorDegree, func(k int, x, y float64) float64 {
-		gx, gy := grad(x, y)
-		return math.Pow(math.Hypot(gx-gv[k][0], gy-gv[k][1]), alpha)
-	})
-	return math.Pow(sum(per), 1/alpha)
-}
-
-// primalError returns μ(v) = ∫ D_G(∇v, ∂G(∇u)) = J(v) − J(u) by
-// quadrature of degree errorDegree, per cell.
-func primalError(s *fem.P1, G convex.Potential, v []float64, grad func(x, y float64) (float64, float64)) []float64 {
-	gv := make([][2]float64, s.Mesh.NumCells())
-	s.Gradient(v, gv)
-	return cellIntegral(s, errorDegree, func(k int, x, y float64) float64 {
-		gx, gy := grad(x, y)
-		return convex.Gap(G, gv[k], convex.Flux(G, [2]float64{gx, gy}))
-	})
-}
-
-func maxNodalError(m *mesh.Mesh, v []float64, u func(x, y float64) float64) float64 {
-	e := 0.0
-	for i, q := range m.Nodes {
-		e = math.Max(e, math.Abs(u(q.X, q.Y)-v[i]))
-	}
-	return e
 }

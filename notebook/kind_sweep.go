@@ -20,7 +20,7 @@ func (sweepKind) Doc() string {
 func (sweepKind) Inputs() []Input {
 	return []Input{
 		{Name: "cell", Type: Ref, Doc: "id of the cell whose input varies (for example the problem)"},
-		{Name: "input", Type: Text, Default: "alpha", MaxLen: 64, Doc: "the numeric input of that cell that varies (alpha, epsilon, cells, h, …)"},
+		{Name: "input", Type: Text, Default: "p", MaxLen: 64, Doc: "the numeric input of that cell that varies (p, epsilon, cells, h, …)"},
 		{Name: "values", Type: Numbers, Doc: "the values it takes, in order"},
 		{Name: "through", Type: Ref, Doc: "id of the last cell of the chain (for example the bound cell); the cells between the two are rerun, and editing any of them reruns the sweep"},
 		{Name: "columns", Type: Texts, Default: []string{},

@@ -10,7 +10,7 @@ import (
 // results; each row equals a separate evaluation at that value.
 func TestSweepExponent(t *testing.T) {
 	chain := []string{
-		kc("p", "problem", map[string]any{"domain": "interval", "alpha": 2}),
+		kc("p", "problem", map[string]any{"domain": "interval", "p": 2}),
 		kc("m", "mesh", map[string]any{"problem": "p", "cells": 16}),
 		kc("s", "solve", map[string]any{"mesh": "m"}),
 		kc("b", "bound", map[string]any{"solution": "s", "minorant": false}),
@@ -26,7 +26,7 @@ func TestSweepExponent(t *testing.T) {
 		t.Errorf("plot %+v", r.Plots)
 	}
 	// Row 2 against a plain evaluation with α = 3.
-	chain[0] = kc("p", "problem", map[string]any{"domain": "interval", "alpha": 3})
+	chain[0] = kc("p", "problem", map[string]any{"domain": "interval", "p": 3})
 	direct := okCell(t, evalCells(t, chain...), "b")
 	if got, want := tb.Rows[1][1], scalar(t, direct, "majorant").Value; got != want {
 		t.Errorf("swept majorant %g, direct %g", got, want)
@@ -45,7 +45,7 @@ func TestSweepErrors(t *testing.T) {
 		want   string
 	}{
 		{map[string]any{"cell": "p", "input": "alhpa", "values": []float64{2}, "through": "s"}, `cell sw: input input: cell p (problem) has no numeric input "alhpa"; numeric inputs: x_min`},
-		{map[string]any{"cell": "p", "values": []float64{2, 0.5}, "through": "s"}, "cell sw: input values: element 1: p.alpha wants a number > 1 and ≤ 100, got 0.5"},
+		{map[string]any{"cell": "p", "values": []float64{2, 0.5}, "through": "s"}, "cell sw: input values: element 1: p.p wants a number > 1 and ≤ 100, got 0.5"},
 		{map[string]any{"cell": "m", "input": "cells", "values": []float64{2.5}, "through": "s"}, "cell sw: input values: element 0: m.cells wants a whole number"},
 		{map[string]any{"cell": "q", "values": []float64{2}, "through": "s"}, "cell sw: input through: cell s does not depend on cell q"},
 		{map[string]any{"cell": "p", "values": []float64{2}, "through": "s", "columns": []string{"s.nothing"}}, `cell sw: input columns: no result "s.nothing" in the chain p → m → s; results:`},
@@ -70,12 +70,12 @@ func TestSweepErrors(t *testing.T) {
 
 // Adaptive refinement on the L-shape restores the optimal rate N^{-1} of
 // μ ~ ‖∇e‖² that the corner singularity r^{2/3} spoils on uniform meshes
-// (CHECKS.md item 11), and the majorant stays above the exact error.
+// (docs/checks.md item 11), and the majorant stays above the exact error.
 func TestAdapt(t *testing.T) {
 	ev := evalCells(t,
-		kc("p", "problem", map[string]any{"domain": "L-shape", "alpha": 2, "f": "1"}),
+		kc("p", "problem", map[string]any{"domain": "L-shape", "p": 2, "f": "1"}),
 		kc("a", "adapt", map[string]any{"problem": "p", "max_cells": 3000}),
-		kc("q", "problem", map[string]any{"domain": "rectangle", "alpha": 3, "f": "", "exact": "x + 0.5*y + 0.25*sin(pi*x)*sin(pi*y)"}),
+		kc("q", "problem", map[string]any{"domain": "rectangle", "p": 3, "f": "", "exact": "x + 0.5*y + 0.25*sin(pi*x)*sin(pi*y)"}),
 		kc("aq", "adapt", map[string]any{"problem": "q", "max_steps": 4}),
 		kc("i", "problem", map[string]any{"domain": "interval"}),
 		kc("ai", "adapt", map[string]any{"problem": "i"}),
@@ -112,7 +112,7 @@ func TestKindInputErrors(t *testing.T) {
 	}{
 		{kc("x", "mesh", map[string]any{"problem": "p", "h": 1e-9}), "cell x: input h: "},
 		{kc("x", "mesh", map[string]any{"problem": "s"}), "cell x: input problem: "},
-		{kc("x", "constant", map[string]any{"mesh": "m", "alpha": 0.5}), "cell x: input alpha: want 0 (the problem's exponent) or a number > 1, got 0.5"},
+		{kc("x", "constant", map[string]any{"mesh": "m", "p": 0.5}), "cell x: input p: want 0 (the problem's exponent) or a number > 1, got 0.5"},
 		{kc("x", "bound", map[string]any{"solution": "s", "order": 2}), "cell x: input order: want a whole number ≥ 0 and ≤ 1, got 2"},
 		{kc("x", "bound", map[string]any{"solution": "s", "flux": "smoothed"}), "cell x: input flux: want one of equilibrated, minimised, averaged, got \"smoothed\""},
 		{kc("x", "solve", map[string]any{"mesh": "m", "max_newton": 1}), "cell x: input max_newton: newton: "},

@@ -53,10 +53,20 @@ func Load(data []byte) (*Notebook, error) {
 	if !ok {
 		return nil, &LoadError{[]Problem{{"", "want a JSON object at the top of the file, got " + jsonType(v)}}}
 	}
+	from := doc[versionKey]
 	if err := migrate(doc); err != nil {
 		return nil, &LoadError{[]Problem{{versionKey, err.Error()}}}
 	}
-	return decode(doc)
+	notes, _ := doc[migrationKey].([]string)
+	delete(doc, migrationKey)
+	nb, err := decode(doc)
+	if nb != nil {
+		nb.Migration = notes
+		if from == json.Number("1") {
+			nb.rehashV1()
+		}
+	}
+	return nb, err
 }
 
 func migrate(doc map[string]any) error {

@@ -40,8 +40,8 @@ func TestLoadReportsProblemsWithPaths(t *testing.T) {
 		{"not json", "{\"gapbook\":1,\n \"cells\": [,]}", false, []string{"not valid JSON at line 2, column 12"}},
 		{"empty", "", false, []string{"file is empty"}},
 		{"top array", `[1]`, false, []string{"want a JSON object at the top of the file, got a list"}},
-		{"no version", `{"cells":[]}`, false, []string{`gapbook: missing; a gapbook file starts with {"gapbook": 1, ...}`}},
-		{"newer", `{"gapbook":7}`, false, []string{"gapbook: format version 7 is newer than this gapbook reads (1); update gapbook"}},
+		{"no version", `{"cells":[]}`, false, []string{`gapbook: missing; a gapbook file starts with {"gapbook": 2, ...}`}},
+		{"newer", `{"gapbook":7}`, false, []string{"gapbook: format version 7 is newer than this gapbook reads (2); update gapbook"}},
 		{"version text", `{"gapbook":"1"}`, false, []string{`gapbook: want a format version (a whole number ≥ 0), got "1"`}},
 		{"duplicate key", `{"gapbook":1,"cells":[{"id":"a","id":"b","kind":"note"}]}`, false, []string{`field "id" appears twice in one object`}},
 		{"trailing", `{"gapbook":1} {}`, false, []string{"unexpected data after the document"}},
@@ -95,7 +95,7 @@ func TestLimits(t *testing.T) {
 }
 
 func TestUnknownFieldsKept(t *testing.T) {
-	doc := `{"gapbook":1,"title":"T","future":{"x":[1,2.50,"y"]},"cells":[{"id":"a","kind":"note","inputs":{"text":"hi","colour":"teal","n":1.0e3},"folded":true,"results":{"hint":1}}],"history":[{"at":"","label":"","weather":"fine"}]}`
+	doc := `{"gapbook":2,"title":"T","future":{"x":[1,2.50,"y"]},"cells":[{"id":"a","kind":"note","inputs":{"text":"hi","colour":"teal","n":1.0e3},"folded":true,"results":{"hint":1}}],"history":[{"at":"","label":"","weather":"fine"}]}`
 	nb, err := Load([]byte(doc))
 	if err != nil {
 		t.Fatal(err)
@@ -156,7 +156,7 @@ func TestMigrationFromVersion0(t *testing.T) {
 		t.Fatal(err)
 	}
 	out, _ := Save(nb)
-	want := `{"gapbook":1,"title":"old","cells":[{"id":"a","kind":"scale","inputs":{"a":2}},{"id":"b","kind":"note","inputs":{"text":"x"},"keep":1}]}`
+	want := `{"gapbook":2,"title":"old","cells":[{"id":"a","kind":"scale","inputs":{"a":2}},{"id":"b","kind":"note","inputs":{"text":"x"},"keep":1}]}`
 	if !jsonEqual(t, out, []byte(want)) {
 		t.Errorf("migrated to\n%s\nwant\n%s", out, want)
 	}

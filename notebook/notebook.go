@@ -7,7 +7,7 @@ import (
 )
 
 // FormatVersion is the version of the file format this package writes.
-const FormatVersion = 1
+const FormatVersion = 2
 
 // Limits against hostile or broken files.
 const (
@@ -28,6 +28,9 @@ type Notebook struct {
 	// Extra holds top-level fields this version does not know, kept as
 	// they were so that saving loses nothing.
 	Extra map[string]json.RawMessage
+	// Migration says, per cell, what loading an older format version
+	// changed (empty for a file of the current version).
+	Migration []string
 }
 
 // Cell is one step of a notebook.

@@ -1,6 +1,7 @@
 package notebook
 
 import (
+	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
 	"fmt"
@@ -305,7 +306,7 @@ func (r *Results) Digest() string {
 	if r == nil {
 		r = &Results{}
 	}
-	s := sha256Sum(r.canonical())
+	s := sha256.Sum256(r.canonical())
 	return hex.EncodeToString(s[:])
 }
 

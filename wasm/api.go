@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"gapbook/notebook/markdown"
 	"math"
 	"strconv"
 	"strings"
@@ -269,7 +270,7 @@ func (s *server) answer(q *request) (map[string]any, error) {
 	case "kinds":
 		return map[string]any{"kinds": kindViews()}, nil
 	case "preview":
-		return map[string]any{"html": notebook.Markdown(q.Text)}, nil
+		return map[string]any{"html": markdown.Render(q.Text)}, nil
 	}
 	nb, problems, err := s.load(q)
 	if err != nil {

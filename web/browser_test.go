@@ -442,7 +442,7 @@ func TestEditExponentInProblemCell(t *testing.T) {
 		return 0
 	}
 	before := major()
-	eval[bool](tb, `(() => { const f = document.querySelector('#cell-problem [data-input="alpha"]');
+	eval[bool](tb, `(() => { const f = document.querySelector('#cell-problem [data-input="p"]');
 		f.value = '2.5'; f.dispatchEvent(new Event('change')); return true })()`)
 	tb.wait(`['mesh', 'solve', 'bound', 'newton'].every(id => document.getElementById('cell-' + id).dataset.status === 'stale')`)
 	if st := tb.statuses(); st["about"] != "ok" {
@@ -469,7 +469,7 @@ func TestEditExponentInProblemCell(t *testing.T) {
 		t.Fatal(err)
 	}
 	c, _ := nb.Cell("problem")
-	if err := c.SetInput("alpha", 2.5); err != nil {
+	if err := c.SetInput("p", 2.5); err != nil {
 		t.Fatal(err)
 	}
 	doc, err := notebook.Save(nb)

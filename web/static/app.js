@@ -894,7 +894,7 @@ async function initialDoc() {
       return { text: a.doc, source, restored: served, note: `Restored your work from ${a.at.replace('T', ' ').slice(0, 19)} UTC.` };
     }
   } catch { /* a broken autosave is ignored */ }
-  return { text: served || '{"gapbook":1,"title":"","cells":[]}', source };
+  return { text: served || '{"gapbook":2,"title":"","cells":[]}', source };
 }
 
 async function boot() {

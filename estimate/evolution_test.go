@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"math/rand/v2"
 	"strings"
@@ -29,10 +30,10 @@ type parCase struct {
 
 // parRun solves c with Evolve and accumulates the bounds with the exact
 // solution measured alongside.
-func parRun(t testing.TB, c parCase, o ParabolicOptions) (*ParabolicResult, *nonlinear.EvolveResult, *fem.P1) {
+func parRun(t testing.TB, c parCase, o EvolutionOptions) (*EvolutionResult, *nonlinear.EvolveResult, *fem.P1) {
 	t.Helper()
 	G := must(convex.Power(c.alpha))
-	man := must(nonlinear.Manufacture(c.u, G))
+	man := must(problem.Manufacture(c.u, G))
 	exact := man.Clone()
 	var m *mesh.Mesh
 	if c.dim == 1 {
@@ -45,9 +46,8 @@ func parRun(t testing.TB, c parCase, o ParabolicOptions) (*ParabolicResult, *non
 	uD := func(x, y, t float64) float64 { return man.U(x, y, t) }
 	u0 := func(x, y float64) float64 { return man.U(x, y, c.t0) }
 	o.Exact = &ExactSolution{U: exact.U, Grad: exact.Grad, Split: 2}
-	pb := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, o))
-	ev, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: f, Dirichlet: uD, U0: u0,
-		T0: c.t0, T: c.t1, Steps: c.steps}, nonlinear.EvolveOptions{Newton: nonlinear.Options{ResTol: 1e-12}}, pb.Step)
+	pb := must(NewEvolution(s, problem.Evolution(G, f, nil, u0, 0, 0), o))
+	ev, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, f, uD, u0, c.t0, c.t1), nonlinear.EvolveOptions{Steps: c.steps, Newton: nonlinear.Options{ResTol: 1e-12}}, pb.Step)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -64,21 +64,21 @@ var parCases = []parCase{
 
 var parFluxes = []struct {
 	name string
-	o    ParabolicOptions
+	o    EvolutionOptions
 }{
-	{"averaged", ParabolicOptions{Kind: AveragedFlux}},
-	{"rt0", ParabolicOptions{}},
-	{"rt1/linear", ParabolicOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}}},
+	{"averaged", EvolutionOptions{Kind: AveragedFlux}},
+	{"rt0", EvolutionOptions{}},
+	{"rt1/linear", EvolutionOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}}},
 }
 
-// TestParabolicIdentity checks (P-ID) of MATH.md §7 (CHECKS.md item 15:
+// TestEvolutionIdentity checks (P-ID) of docs/math.md §7 (docs/checks.md item 15:
 // an identity, [D]) for manufactured solutions and fluxes that are not
 // equilibrated (averaged) or only balanced against Π_k of the load: both
 // sides by the same composite space-time rule must agree to quadrature
 // accuracy, the gap integral of the bounds must agree with the exact pass,
 // and every majorant must lie above the true error measure S(T) and above
 // S(t_n) at every step.
-func TestParabolicIdentity(t *testing.T) {
+func TestEvolutionIdentity(t *testing.T) {
 	for _, c := range parCases {
 		for _, fl := range parFluxes {
 			t.Run(c.name+"/"+fl.name, func(t *testing.T) {
@@ -103,7 +103,7 @@ func TestParabolicIdentity(t *testing.T) {
 				if !(r.Final.Value >= e.L2Final) {
 					t.Errorf("bound of ‖e(T)‖ %.6e below the error %.6e", r.Final.Value, e.L2Final)
 				}
-				// MATH.md §7 sets the aim I_eff ≤ 2 (α = 2) and ≤ 5 (α = 3)
+				// docs/math.md §7 sets the aim I_eff ≤ 2 (α = 2) and ≤ 5 (α = 3)
 				// for (P-MAJ) with RT1 and y* linear in time.
 				if fl.o.InTime == LinearInTime && r.Split.Value > 2*lhs {
 					t.Errorf("efficiency index of (P-MAJ) %.3f above 2", r.Split.Value/lhs)
@@ -114,19 +114,19 @@ func TestParabolicIdentity(t *testing.T) {
 	}
 }
 
-// TestParabolicHypercircle checks the parabolic hypercircle identity
-// ‖∇e‖²_Q + ‖∇u − y‖²_Q + ‖e(T)‖² = ‖∇v − y‖²_Q + ‖e(0)‖² (CHECKS.md item
+// TestEvolutionHypercircle checks the evolution hypercircle identity
+// ‖∇e‖²_Q + ‖∇u − y‖²_Q + ‖e(T)‖² = ‖∇v − y‖²_Q + ‖e(0)‖² (docs/checks.md item
 // 14, [D]) for the heat equation with f = 0: y*_n in RT1 is balanced
 // against −∂_t v, a P1 field that Π1 reproduces, so r = f − ∂_t v + div y*
 // vanishes identically when y* is constant in time on each step. Then the
 // residual terms of the bounds vanish too and (P-MAJ) equals A.
-func TestParabolicHypercircle(t *testing.T) {
+func TestEvolutionHypercircle(t *testing.T) {
 	for _, c := range []parCase{
 		{"1d", 2, 1, 12, 6, 0, 0.1, "sin(pi*x)*exp(-pi^2*t)"},
 		{"2d", 2, 2, 6, 3, 0, 0.05, "sin(pi*x)*sin(pi*y)*exp(-2*pi^2*t)"},
 	} {
 		t.Run(c.name, func(t *testing.T) {
-			r, _, _ := parRun(t, c, ParabolicOptions{Equilibrate: EquilibrateOptions{Order: 1}})
+			r, _, _ := parRun(t, c, EvolutionOptions{Equilibrate: EquilibrateOptions{Order: 1}})
 			e := r.Exact
 			lhs := 2 * (e.Primal + e.Dual + e.Final)
 			rhs := 2 * (e.Gap + e.Initial)
@@ -146,18 +146,18 @@ func TestParabolicHypercircle(t *testing.T) {
 	}
 }
 
-// TestParabolicInput checks that bad input gives errors, not panics.
-func TestParabolicInput(t *testing.T) {
+// TestEvolutionInput checks that bad input gives errors, not panics.
+func TestEvolutionInput(t *testing.T) {
 	G := must(convex.Power(2))
 	m := must(mesh.Interval(0, 1, 4))
 	s := must(fem.NewP1(m))
-	if _, err := NewParabolic(nil, ParabolicProblem{G: G}, ParabolicOptions{}); err == nil {
+	if _, err := NewEvolution(nil, problem.Evolution(G, nil, nil, nil, 0, 0), EvolutionOptions{}); err == nil {
 		t.Error("no space: no error")
 	}
-	if _, err := NewParabolic(s, ParabolicProblem{G: G}, ParabolicOptions{Kind: 7}); err == nil {
+	if _, err := NewEvolution(s, problem.Evolution(G, nil, nil, nil, 0, 0), EvolutionOptions{Kind: 7}); err == nil {
 		t.Error("unknown flux kind: no error")
 	}
-	pb := must(NewParabolic(s, ParabolicProblem{G: G}, ParabolicOptions{}))
+	pb := must(NewEvolution(s, problem.Evolution(G, nil, nil, nil, 0, 0), EvolutionOptions{}))
 	if _, err := pb.Bounds(); err == nil {
 		t.Error("bounds before any step: no error")
 	}
@@ -182,7 +182,7 @@ func TestParabolicInput(t *testing.T) {
 
 // TestCompositeRule checks the composite rules against exact monomial
 // integrals on the reference cells (∫ x^i y^j = i! j!/(i + j + 2)! on the
-// triangle, CHECKS.md item 16; 1/(i + 1) on the interval) and that a kink
+// triangle, docs/checks.md item 16; 1/(i + 1) on the interval) and that a kink
 // at a sub-cell edge is integrated exactly.
 func TestCompositeRule(t *testing.T) {
 	fact := func(n int) float64 { return math.Gamma(float64(n) + 1) }
@@ -210,13 +210,13 @@ func TestCompositeRule(t *testing.T) {
 	}
 }
 
-func ExampleParabolic() {
+func ExampleEvolution() {
 	G, _ := convex.Power(2)
 	m, _ := mesh.Interval(0, 1, 32)
 	s, _ := fem.NewP1(m)
 	u0 := func(x, _ float64) float64 { return math.Sin(math.Pi * x) }
-	pb, _ := NewParabolic(s, ParabolicProblem{G: G, U0: u0}, ParabolicOptions{Equilibrate: EquilibrateOptions{Order: 1}})
-	_, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, U0: u0, T: 0.1, Steps: 10}, nonlinear.EvolveOptions{}, pb.Step)
+	pb, _ := NewEvolution(s, problem.Evolution(G, nil, nil, u0, 0, 0), EvolutionOptions{Equilibrate: EquilibrateOptions{Order: 1}})
+	_, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, nil, nil, u0, 0, 0.1), nonlinear.EvolveOptions{Steps: 10}, pb.Step)
 	if err != nil {
 		fmt.Println(err)
 		return
@@ -231,17 +231,17 @@ func ExampleParabolic() {
 // error measure, both h and τ must get refined, and the bound must fall.
 func TestAdaptEvolution(t *testing.T) {
 	G := must(convex.Power(2))
-	man := must(nonlinear.Manufacture("sin(pi*x)*exp(-t)", G))
+	man := must(problem.Manufacture("sin(pi*x)*exp(-t)", G))
 	f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
 	u0 := func(x, y float64) float64 { return man.U(x, y, 0) }
 	exact := man.Clone()
 	run := func(ctx context.Context, m *mesh.Mesh, times []float64, step func(context.Context, float64, float64, []float64, []float64) error) error {
-		_, err := nonlinear.Evolve(ctx, m, nonlinear.Evolution{G: G, F: f, U0: u0, Times: times}, nonlinear.EvolveOptions{}, step)
+		_, err := nonlinear.Evolve(ctx, m, problem.Evolution(G, f, nil, u0, 0, 0), nonlinear.EvolveOptions{Times: times}, step)
 		return err
 	}
 	rounds, err := AdaptEvolution(context.Background(), must(mesh.Interval(0, 1, 4)), []float64{0, 0.25, 0.5}, run,
-		EvolutionAdaptOptions{Problem: ParabolicProblem{G: G, F: f, U0: u0}, Rounds: 8,
-			Options: ParabolicOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1},
+		EvolutionAdaptOptions{Problem: problem.Evolution(G, f, nil, u0, 0, 0), Rounds: 8,
+			Options: EvolutionOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1},
 				Exact: &ExactSolution{U: exact.U, Grad: exact.Grad, Split: 2}}})
 	if err != nil {
 		t.Fatal(err)
@@ -264,17 +264,17 @@ func TestAdaptEvolution(t *testing.T) {
 	}
 }
 
-// TestParabolicLoadSharing counts the evaluations of f by the bounds of an
+// TestEvolutionLoadSharing counts the evaluations of f by the bounds of an
 // RT1 flux linear in time: the flux projection at t_n and the residual
 // terms of both steps next to t_n share one sample per point, so a run of
 // N steps evaluates f (2N + 1) times per point of the residual rule, and
 // (N + 1) times when the time stepper hands over its load samples
 // (nonlinear.EvolveOptions.Load). The bounds must not change beyond
 // round-off when the samples come from the stepper.
-func TestParabolicLoadSharing(t *testing.T) {
+func TestEvolutionLoadSharing(t *testing.T) {
 	c := parCases[4]
 	G := must(convex.Power(c.alpha))
-	man := must(nonlinear.Manufacture(c.u, G))
+	man := must(problem.Manufacture(c.u, G))
 	m := must(mesh.Rectangle(0, 1, 0, 1, c.n, c.n))
 	s := must(fem.NewP1(m))
 	uD := func(x, y, t float64) float64 { return man.U(x, y, t) }
@@ -285,14 +285,13 @@ func TestParabolicLoadSharing(t *testing.T) {
 		calls := 0
 		fb := func(x, y, t float64) float64 { calls++; return man.Source(x, y, t) }
 		fs := func(x, y, t float64) float64 { return man.Source(x, y, t) }
-		pb := must(NewParabolic(s, ParabolicProblem{G: G, F: fb, U0: u0},
-			ParabolicOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}}))
-		eo := nonlinear.EvolveOptions{}
+		pb := must(NewEvolution(s, problem.Evolution(G, fb, nil, u0, 0, 0),
+			EvolutionOptions{InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}}))
+		eo := nonlinear.EvolveOptions{Steps: c.steps}
 		if share {
 			eo.Load = pb.LoadSamples
 		}
-		if _, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: fs, Dirichlet: uD, U0: u0,
-			T0: c.t0, T: c.t1, Steps: c.steps}, eo, pb.Step); err != nil {
+		if _, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, fs, uD, u0, c.t0, c.t1), eo, pb.Step); err != nil {
 			t.Fatal(err)
 		}
 		want := (2*c.steps + 1) * nr
@@ -347,31 +346,30 @@ func TestComesNearZero(t *testing.T) {
 	}
 }
 
-// TestParabolicExactGapRules checks that for α = 2 the lowest rules chosen
+// TestEvolutionExactGapRules checks that for α = 2 the lowest rules chosen
 // as exact for the polynomial gap (degree 2k + 2 in space, 2 Gauss points
 // in time) give the gap and the norms of ∇v that rules of higher degree
 // give, to round-off (an identity: both rules are exact), and that the
 // assumptions say so; and which potentials count as quadratic.
-func TestParabolicExactGapRules(t *testing.T) {
+func TestEvolutionExactGapRules(t *testing.T) {
 	G := must(convex.Power(2))
-	man := must(nonlinear.Manufacture(parCases[1].u, G))
+	man := must(problem.Manufacture(parCases[1].u, G))
 	m := must(mesh.Rectangle(0, 1, 0, 1, 6, 6))
 	s := must(fem.NewP1(m))
 	f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
 	u0 := func(x, y float64) float64 { return man.U(x, y, 0) }
 	for _, fl := range parFluxes {
 		o := fl.o
-		low := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, o))
+		low := must(NewEvolution(s, problem.Evolution(G, f, nil, u0, 0, 0), o))
 		o.Degree, o.TimePoints = 8, 4
-		high := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, o))
+		high := must(NewEvolution(s, problem.Evolution(G, f, nil, u0, 0, 0), o))
 		both := func(ctx context.Context, t0, t1 float64, v0, v1 []float64) error {
 			if err := low.Step(ctx, t0, t1, v0, v1); err != nil {
 				return err
 			}
 			return high.Step(ctx, t0, t1, v0, v1)
 		}
-		if _, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: f, U0: u0,
-			Dirichlet: func(x, y, t float64) float64 { return man.U(x, y, t) }, T: 0.25, Steps: 3}, nonlinear.EvolveOptions{}, both); err != nil {
+		if _, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, f, func(x, y, t float64) float64 { return man.U(x, y, t) }, u0, 0, 0.25), nonlinear.EvolveOptions{Steps: 3}, both); err != nil {
 			t.Fatal(err)
 		}
 		lo, hi := must(low.Bounds()), must(high.Bounds())
@@ -399,28 +397,28 @@ func TestParabolicExactGapRules(t *testing.T) {
 	}
 }
 
-// TestParabolicSeparatedGap: for a flux constant in time the gap is summed
+// TestEvolutionSeparatedGap: for a flux constant in time the gap is summed
 // in its separated form G(∇v(t)) + G*(y*) − ∇v(t)·y* with a rounding margin;
 // it must agree with the pointwise compound functional (cancellation-free)
 // to 1e-10 relative and never fall below it by more than rounding
 // (an identity: the same integral in two forms), at α = 1.5, 3 and 4.
-func TestParabolicSeparatedGap(t *testing.T) {
+func TestEvolutionSeparatedGap(t *testing.T) {
 	for _, alpha := range []float64{1.5, 3, 4} {
 		G := must(convex.Power(alpha))
-		man := must(nonlinear.Manufacture("(1+t)*(x + 0.5*y) + exp(-t)*x*(1-x)*y*(1-y)", G))
+		man := must(problem.Manufacture("(1+t)*(x + 0.5*y) + exp(-t)*x*(1-x)*y*(1-y)", G))
 		m := must(mesh.Rectangle(0, 1, 0, 1, 8, 8))
 		s := must(fem.NewP1(m))
 		f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
 		u0 := func(x, y float64) float64 { return man.U(x, y, 0) }
-		var got [2]*ParabolicResult
+		var got [2]*EvolutionResult
 		for i, split := range []bool{true, false} {
-			pb := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0}, ParabolicOptions{InTime: ConstantInTime}))
+			pb := must(NewEvolution(s, problem.Evolution(G, f, nil, u0, 0, 0), EvolutionOptions{InTime: ConstantInTime}))
 			if !pb.split {
 				t.Fatalf("α=%g: the separated form is not used", alpha)
 			}
 			pb.split = split
-			_, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: f, Dirichlet: func(x, y, t float64) float64 { return man.U(x, y, t) }, U0: u0, T: 0.2, Steps: 4},
-				nonlinear.EvolveOptions{Load: pb.LoadSamples}, pb.Step)
+			_, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, f, func(x, y, t float64) float64 { return man.U(x, y, t) }, u0, 0, 0.2),
+				nonlinear.EvolveOptions{Steps: 4, Load: pb.LoadSamples}, pb.Step)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"testing"
 	"time"
 
@@ -32,7 +33,7 @@ func BenchmarkEvolution(b *testing.B) {
 				for _, steps := range []int{4, 16} {
 					b.Run(fmt.Sprintf("flux=%s/p=%g/n=%d/steps=%d", fl.name, alpha, n, steps), func(b *testing.B) {
 						G := must(convex.Power(alpha))
-						man := must(nonlinear.Manufacture("(1+t)*(x + 0.5*y) + exp(-t)*x*(1-x)*y*(1-y)", G))
+						man := must(problem.Manufacture("(1+t)*(x + 0.5*y) + exp(-t)*x*(1-x)*y*(1-y)", G))
 						m := must(mesh.Rectangle(0, 1, 0, 1, n, n))
 						s := must(fem.NewP1(m))
 						f := func(x, y, t float64) float64 { return man.Source(x, y, t) }
@@ -41,8 +42,8 @@ func BenchmarkEvolution(b *testing.B) {
 						var bounds, total time.Duration
 						var newton int
 						for range b.N {
-							pb := must(NewParabolic(s, ParabolicProblem{G: G, F: f, U0: u0},
-								ParabolicOptions{InTime: fl.inTime, Equilibrate: EquilibrateOptions{Order: fl.order}}))
+							pb := must(NewEvolution(s, problem.Evolution(G, f, nil, u0, 0, 0),
+								EvolutionOptions{InTime: fl.inTime, Equilibrate: EquilibrateOptions{Order: fl.order}}))
 							step := func(ctx context.Context, t0, t1 float64, v0, v1 []float64) error {
 								start := time.Now()
 								err := pb.Step(ctx, t0, t1, v0, v1)
@@ -50,7 +51,7 @@ func BenchmarkEvolution(b *testing.B) {
 								return err
 							}
 							start := time.Now()
-							ev, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, F: f, Dirichlet: uD, U0: u0, T: 0.25, Steps: steps}, nonlinear.EvolveOptions{Load: pb.LoadSamples}, step)
+							ev, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, f, uD, u0, 0, 0.25), nonlinear.EvolveOptions{Steps: steps, Load: pb.LoadSamples}, step)
 							if err != nil {
 								b.Fatal(err)
 							}

@@ -7,6 +7,7 @@ import (
 
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // EvolutionRunFunc runs the time stepper on mesh m over the time grid
@@ -16,8 +17,8 @@ type EvolutionRunFunc func(ctx context.Context, m *mesh.Mesh, times []float64, s
 
 // EvolutionAdaptOptions configure AdaptEvolution.
 type EvolutionAdaptOptions struct {
-	Problem ParabolicProblem
-	Options ParabolicOptions
+	Problem *problem.Problem
+	Options EvolutionOptions
 	// Target stops the loop once the (P-MAJ) bound is ≤ Target (0: none).
 	Target float64
 	// Rounds bounds the number of runs (0: 6); Share is the bulk-marking
@@ -32,12 +33,12 @@ type EvolutionAdaptOptions struct {
 type EvolutionRound struct {
 	Mesh   *mesh.Mesh
 	Times  []float64
-	Result *ParabolicResult
+	Result *EvolutionResult
 	// Refined says what the round refined afterwards: "space", "time" or "".
 	Refined string
 }
 
-// AdaptEvolution alternates runs and refinements (MATH.md §7): after each
+// AdaptEvolution alternates runs and refinements (docs/math.md §7): after each
 // run it compares the space and time parts of the (P-MAJ) bound; when the
 // time part dominates it halves the steps holding the bulk of the time
 // indicators, otherwise it bisects the cells holding the bulk of the space
@@ -68,7 +69,7 @@ func AdaptEvolution(ctx context.Context, m0 *mesh.Mesh, times0 []float64, run Ev
 		if opt.Options.Friedrichs.Value > 0 {
 			o.Friedrichs = opt.Options.Friedrichs
 		}
-		pb, err := NewParabolic(s, opt.Problem, o)
+		pb, err := NewEvolution(s, opt.Problem, o)
 		if err != nil {
 			return rounds, err
 		}

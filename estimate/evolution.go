@@ -10,25 +10,15 @@ import (
 
 	"gapbook/convex"
 	"gapbook/fem"
+	"gapbook/problem"
 )
-
-// ParabolicProblem is the evolution problem (P) of MATH.md §7 as the bounds
-// see it: ∂_t u − div ∂G(∇u) = f, u = u_D on ∂Ω, u(t_0) = U0.
-type ParabolicProblem struct {
-	// G is the potential (required).
-	G convex.Potential
-	// F is f(x, y, t); nil means f = 0.
-	F func(x, y, t float64) float64
-	// U0 is the initial value; nil means 0.
-	U0 func(x, y float64) float64
-}
 
 // FluxKind chooses the reconstruction of y* at each time step.
 type FluxKind int
 
 const (
 	// EquilibratedFlux balances the step load f − ∂_t v in RT_k
-	// (Equilibrate with ParabolicOptions.Equilibrate).
+	// (Equilibrate with EvolutionOptions.Equilibrate).
 	EquilibratedFlux FluxKind = iota
 	// AveragedFlux is the nodal average of ∂G(∇v) (NewAveraged): cheap,
 	// with a residual that does not vanish as h → 0.
@@ -40,7 +30,7 @@ type TimeFlux int
 
 const (
 	// ConstantInTime uses one flux y*_n per step, built from v_n against
-	// f(t_n) − ∂_t v (MATH.md §7, the natural choice for implicit Euler).
+	// f(t_n) − ∂_t v (docs/math.md §7, the natural choice for implicit Euler).
 	ConstantInTime TimeFlux = iota
 	// LinearInTime interpolates linearly between a flux built from v_{n−1}
 	// against f(t_{n−1}) − ∂_t v and y*_n: two reconstructions per step, a
@@ -61,8 +51,8 @@ type ExactSolution struct {
 	TimePoints int
 }
 
-// ParabolicOptions configure Parabolic.
-type ParabolicOptions struct {
+// EvolutionOptions configure Evolution.
+type EvolutionOptions struct {
 	// Friedrichs is C_F,α of the domain for the modulus form; zero means
 	// WidthConstant of the mesh.
 	Friedrichs Constant
@@ -123,14 +113,14 @@ type StepPart struct {
 	Space, Time float64
 }
 
-// Parabolic accumulates the space-time error bounds of MATH.md §7 step by
+// Evolution accumulates the space-time error bounds of docs/math.md §7 step by
 // step: give its Step method to the time stepper (nonlinear.Evolve) and call
 // Bounds at the end. Its memory is that of a few vectors on the mesh plus
 // one StepPart per step.
-type Parabolic struct {
+type Evolution struct {
 	s     *fem.P1
-	p     ParabolicProblem
-	o     ParabolicOptions
+	p     *problem.Problem
+	o     EvolutionOptions
 	alpha float64
 	conj  float64
 	nb    normBound
@@ -207,21 +197,21 @@ type Parabolic struct {
 	dPrev, vPrev []float64
 }
 
-// NewParabolic prepares the accumulator for the P1 space s.
-func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic, error) {
-	if s == nil || p.G == nil {
-		return nil, errors.New("parabolic bounds: need a P1 space and a potential")
+// NewEvolution prepares the accumulator for the P1 space s.
+func NewEvolution(s *fem.P1, p *problem.Problem, o EvolutionOptions) (*Evolution, error) {
+	if s == nil || p == nil || p.G == nil {
+		return nil, errors.New("evolution bounds: need a P1 space and a potential")
 	}
 	alpha := p.G.Growth()
 	if o.Friedrichs.Value == 0 {
 		c, err := WidthConstant(s.Mesh, alpha)
 		if err != nil {
-			return nil, fmt.Errorf("parabolic bounds: %w", err)
+			return nil, fmt.Errorf("evolution bounds: %w", err)
 		}
 		o.Friedrichs = c
 	}
 	if !(o.Friedrichs.Value > 0) || math.IsInf(o.Friedrichs.Value, 0) {
-		return nil, fmt.Errorf("parabolic bounds: the Friedrichs constant %g is not a positive number", o.Friedrichs.Value)
+		return nil, fmt.Errorf("evolution bounds: the Friedrichs constant %g is not a positive number", o.Friedrichs.Value)
 	}
 	// For a quadratic G the gap D_G(∇v, y*) = κ|∇v − y*/κ|²/2 and the
 	// norms of ∇v are polynomials: of degree 2 in time (∇v and y* linear
@@ -253,12 +243,12 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 		o.InitialDegree = 8
 	}
 	if o.Kind != EquilibratedFlux && o.Kind != AveragedFlux {
-		return nil, fmt.Errorf("parabolic bounds: unknown flux kind %d", o.Kind)
+		return nil, fmt.Errorf("evolution bounds: unknown flux kind %d", o.Kind)
 	}
 	if o.InTime != ConstantInTime && o.InTime != LinearInTime {
-		return nil, fmt.Errorf("parabolic bounds: unknown time form %d", o.InTime)
+		return nil, fmt.Errorf("evolution bounds: unknown time form %d", o.InTime)
 	}
-	b := &Parabolic{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1), exactGap: exact}
+	b := &Evolution{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1), exactGap: exact}
 	if o.Kind == EquilibratedFlux && o.Split == 1 && (o.Equilibrate.Degree == 0 || o.Equilibrate.Degree == o.LoadDegree) {
 		// The projection of f onto P_k then samples f where the slab does,
 		// and its samples at t_n serve both steps next to t_n.
@@ -277,7 +267,7 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 		}
 	}
 	if len(b.nb.bounds) == 0 {
-		return nil, fmt.Errorf("parabolic bounds: the potential has no modulus in the norm of its growth α = %g; supply one in ParabolicOptions.Modulus", alpha)
+		return nil, fmt.Errorf("evolution bounds: the potential has no modulus in the norm of its growth α = %g; supply one in EvolutionOptions.Modulus", alpha)
 	}
 	b.norms = make([]float64, len(b.nb.bounds))
 	nc, nn := s.Mesh.NumCells(), s.Mesh.NumNodes()
@@ -309,7 +299,7 @@ func NewParabolic(s *fem.P1, p ParabolicProblem, o ParabolicOptions) (*Parabolic
 	b.split = b.gp.power && !b.exactGap
 	if e := o.Exact; e != nil {
 		if e.U == nil || e.Grad == nil {
-			return nil, errors.New("parabolic bounds: the exact solution needs U and Grad")
+			return nil, errors.New("evolution bounds: the exact solution needs U and Grad")
 		}
 		ex := *e
 		if ex.Split <= 0 {
@@ -423,21 +413,21 @@ func powAbs(x, q float64) float64 {
 // values, v linear in time between them): it reconstructs y* and adds the
 // step's integrals by Gauss rules in time. It has the signature of the
 // per-step callback of nonlinear.Evolve; steps must come in order.
-func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) error {
+func (b *Evolution) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) error {
 	s := b.s
 	nn := s.Mesh.NumNodes()
 	if len(v0) != nn || len(v1) != nn {
-		return fmt.Errorf("parabolic bounds: v has %d and %d values for %d nodes", len(v0), len(v1), nn)
+		return fmt.Errorf("evolution bounds: v has %d and %d values for %d nodes", len(v0), len(v1), nn)
 	}
 	if !(t1 > t0) {
-		return fmt.Errorf("parabolic bounds: step (%g, %g) is empty or reversed", t0, t1)
+		return fmt.Errorf("evolution bounds: step (%g, %g) is empty or reversed", t0, t1)
 	}
 	if b.steps == 0 {
 		b.t0 = t0
 		b.initial = b.initialError(v0)
 		b.exact.Initial = b.initial
 	} else if math.Abs(t0-b.t1) > 1e-12*math.Max(1, math.Abs(t0)) {
-		return fmt.Errorf("parabolic bounds: step starts at %g but the previous one ended at %g", t0, b.t1)
+		return fmt.Errorf("evolution bounds: step starts at %g but the previous one ended at %g", t0, b.t1)
 	}
 	tau := t1 - t0
 	b.stepT0, b.stepT1 = t0, t1
@@ -476,7 +466,7 @@ func (b *Parabolic) Step(ctx context.Context, t0, t1 float64, v0, v1 []float64) 
 
 // source is the load f(t) − ∂_t v of the current step. It reads f from a
 // load slot that holds time t, or records f into rec (nil: none).
-func (b *Parabolic) source(t float64, rec *loadCache) Source {
+func (b *Evolution) source(t float64, rec *loadCache) Source {
 	m := b.s.Mesh
 	nv := m.Dim + 1
 	f := b.p.F
@@ -507,7 +497,7 @@ func (b *Parabolic) source(t float64, rec *loadCache) Source {
 }
 
 // reconstruct builds y* from v against the load f(t) − ∂_t v.
-func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Flux, error) {
+func (b *Evolution) reconstruct(ctx context.Context, v []float64, t float64) (Flux, error) {
 	if b.o.Kind == AveragedFlux {
 		return NewAveraged(b.s, b.p.G, v)
 	}
@@ -523,16 +513,16 @@ func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Fl
 	} else {
 		if b.eq == nil {
 			if err := b.o.Equilibrate.defaults(); err != nil {
-				return nil, fmt.Errorf("parabolic bounds: %w", err)
+				return nil, fmt.Errorf("evolution bounds: %w", err)
 			}
 			if b.eq, err = newEquilibrator(b.s, b.o.Equilibrate.Order); err != nil {
-				return nil, fmt.Errorf("parabolic bounds: %w", err)
+				return nil, fmt.Errorf("evolution bounds: %w", err)
 			}
 		}
 		e, err = b.eq.flux(ctx, b.p.G, v, b.source(t, rec), b.o.Equilibrate)
 	}
 	if err != nil {
-		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t, err)
+		return nil, fmt.Errorf("evolution bounds at t = %g: %w", t, err)
 	}
 	b.last = e
 	return e, nil
@@ -543,7 +533,7 @@ func (b *Parabolic) reconstruct(ctx context.Context, v []float64, t float64) (Fl
 // the same v0 against f(t0) minus the previous ∂_t v, so on a 2-D mesh it
 // is shifted by the balanced correction for the difference of the two
 // P1 time derivatives (equilibrator.shift) instead of being rebuilt.
-func (b *Parabolic) reconstructStart(ctx context.Context, v0 []float64, t0 float64) (Flux, error) {
+func (b *Evolution) reconstructStart(ctx context.Context, v0 []float64, t0 float64) (Flux, error) {
 	if b.o.Kind != EquilibratedFlux || b.eq == nil || b.last == nil || !slices.Equal(v0, b.vPrev) {
 		return b.reconstruct(ctx, v0, t0)
 	}
@@ -561,7 +551,7 @@ func (b *Parabolic) reconstructStart(ctx context.Context, v0 []float64, t0 float
 	}
 	e, err := b.eq.shift(ctx, b.p.G, b.last, v0, df, b.source(t0, nil), b.o.Equilibrate)
 	if err != nil {
-		return nil, fmt.Errorf("parabolic bounds at t = %g: %w", t0, err)
+		return nil, fmt.Errorf("evolution bounds at t = %g: %w", t0, err)
 	}
 	b.last = nil
 	return e, nil
@@ -582,7 +572,7 @@ type slabSums struct {
 // depend on t is computed once per cell (∇v(t) and its gap data, the
 // vertices, ∂G(∇v_n)) or once per point (y* at both ends, whose time
 // interpolation is then two products, ∂_t v, x).
-func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
+func (b *Evolution) slab(t0, tau float64, ya, yb Flux) StepPart {
 	s := b.s
 	m := s.Mesh
 	nv := m.Dim + 1
@@ -799,7 +789,7 @@ func (b *Parabolic) slab(t0, tau float64, ya, yb Flux) StepPart {
 // where the two differ beyond the tolerance (a front, a kink of u0) are
 // subdivided adaptively. The difference, or the adaptive error estimate,
 // is added to the value so that it is not underestimated.
-func (b *Parabolic) initialError(v0 []float64) float64 {
+func (b *Evolution) initialError(v0 []float64) float64 {
 	dim, sp := b.s.Mesh.Dim, b.o.InitialSplit
 	val, err := b.halfSquare(v0, b.p.U0, 0, CompositeRule(dim, b.o.InitialDegree, sp),
 		CompositeRule(dim, max(b.o.InitialDegree-2, 1), sp), 1e-8)
@@ -812,7 +802,7 @@ func (b *Parabolic) initialError(v0 []float64) float64 {
 // subdivided only where r and lo differ beyond the tolerance, and the
 // difference is the error estimate of the others; without one every cell
 // is checked by its first subdivision.
-func (b *Parabolic) halfSquare(v []float64, u func(x, y float64) float64, t float64, r, lo fem.Rule, rel float64) (val, errEst float64) {
+func (b *Evolution) halfSquare(v []float64, u func(x, y float64) float64, t float64, r, lo fem.Rule, rel float64) (val, errEst float64) {
 	s := b.s
 	m := s.Mesh
 	nv := m.Dim + 1
@@ -863,7 +853,7 @@ func (b *Parabolic) halfSquare(v []float64, u func(x, y float64) float64, t floa
 // what it adds to the fixed-rule gap: the change of value plus the error
 // estimate (so that the gap, which the bound adds, is not underestimated
 // where |y*|^{α'} or |∇v|^α has a kink or cusp).
-func (b *Parabolic) safeguardGap(tau float64, ya, yb Flux) float64 {
+func (b *Evolution) safeguardGap(tau float64, ya, yb Flux) float64 {
 	if b.samples == nil {
 		return 0
 	}
@@ -907,7 +897,7 @@ func (b *Parabolic) safeguardGap(tau float64, ya, yb Flux) float64 {
 // ExactSolution, refined adaptively in space and time (relative tolerance
 // 1e-9) on the cells where ∇u, y* or ∇v come near zero, so that the
 // reference the bounds are tested against is far more accurate than they.
-func (b *Parabolic) exactSlab(t0, tau float64, v0, v1 []float64, ya, yb Flux) {
+func (b *Evolution) exactSlab(t0, tau float64, v0, v1 []float64, ya, yb Flux) {
 	s := b.s
 	m := s.Mesh
 	dim, nv := m.Dim, m.Dim+1
@@ -1004,8 +994,8 @@ func (b *Parabolic) exactSlab(t0, tau float64, v0, v1 []float64, ya, yb Flux) {
 	b.exact.Sup = math.Max(b.exact.Sup, b.exact.Total())
 }
 
-// ParabolicResult holds the bounds of MATH.md §7 after the last step.
-type ParabolicResult struct {
+// EvolutionResult holds the bounds of docs/math.md §7 after the last step.
+type EvolutionResult struct {
 	// Steps is the number of time steps, T0 and T the time window.
 	Steps int
 	T0, T float64
@@ -1013,7 +1003,7 @@ type ParabolicResult struct {
 	Initial, Gap, A float64
 	// P = ∫ ‖Π0 r‖_2 dt, RTilde = (∫ R_osc^{α'} dt)^{1/α'} and RQ the
 	// space-time residual factor (∫ R(t)^{α'} dt)^{1/α'} of the modulus form,
-	// R(t) = min(C_F‖r‖_{α'}, R_osc + C_F‖Π0 r‖_{α'}) (MATH.md §4 at each t).
+	// R(t) = min(C_F‖r‖_{α'}, R_osc + C_F‖Π0 r‖_{α'}) (docs/math.md §4 at each t).
 	P, RTilde, RQ float64
 	// Split is (P-MAJ): the largest root of s = A + R̃ X_Q(s) + P√(2s), a
 	// bound of sup_t S(t), S = μ_Q + μ*_Q + ½‖e‖² on (0, t).
@@ -1044,10 +1034,10 @@ type ParabolicResult struct {
 
 // Bounds returns the bounds after the steps so far: (P-MAJ), the modulus
 // form with the global Friedrichs constant and the constant-free form
-// (MATH.md §7), with the indicators.
-func (b *Parabolic) Bounds() (*ParabolicResult, error) {
+// (docs/math.md §7), with the indicators.
+func (b *Evolution) Bounds() (*EvolutionResult, error) {
 	if b.steps == 0 {
-		return nil, errors.New("parabolic bounds: no time step yet")
+		return nil, errors.New("evolution bounds: no time step yet")
 	}
 	q := b.conj
 	nb := b.nb
@@ -1055,7 +1045,7 @@ func (b *Parabolic) Bounds() (*ParabolicResult, error) {
 	for i, n := range b.norms {
 		nb.n[i] = math.Pow(n, 1/b.alpha)
 	}
-	r := &ParabolicResult{Steps: b.steps, T0: b.t0, T: b.t1, Initial: b.initial, Gap: b.gap,
+	r := &EvolutionResult{Steps: b.steps, T0: b.t0, T: b.t1, Initial: b.initial, Gap: b.gap,
 		A: b.gap + b.initial, P: b.pSum, RTilde: math.Pow(b.rTil, 1/q), RQ: math.Pow(b.rQ, 1/q)}
 	X := func(s float64) float64 { x, _ := nb.X(s); return x }
 	split, err := largestRoot(r.A, func(s float64) float64 { return r.RTilde*X(s) + r.P*math.Sqrt(2*s) })
@@ -1131,4 +1121,4 @@ func (b *Parabolic) Bounds() (*ParabolicResult, error) {
 }
 
 // LastFlux returns the flux y*_n of the latest step (nil before the first).
-func (b *Parabolic) LastFlux() Flux { return b.flux }
+func (b *Evolution) LastFlux() Flux { return b.flux }

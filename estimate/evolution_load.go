@@ -11,7 +11,7 @@ import "slices"
 var loadTimes, loadWeights = [3]float64{0, 0.5, 1}, [3]float64{1.0 / 6, 4.0 / 6, 1.0 / 6}
 
 // loadCache holds f(·, t) at the points of the residual terms' space rule
-// (Parabolic.rrule) of every cell
+// (Evolution.rrule) of every cell
 // (index k·np + i), for one time t. It is filled by the step's flux
 // projection (when that runs on the same rule) or by the slab, and read by
 // the slab of this step and of the next, which starts at t.
@@ -26,7 +26,7 @@ type loadCache struct {
 }
 
 // loadAt returns the cache slot holding f(·, t), or nil.
-func (b *Parabolic) loadAt(t float64) *loadCache {
+func (b *Evolution) loadAt(t float64) *loadCache {
 	for i := range b.loads {
 		if c := &b.loads[i]; c.ok && c.t == t {
 			return c
@@ -37,7 +37,7 @@ func (b *Parabolic) loadAt(t float64) *loadCache {
 
 // freeLoad returns a slot to overwrite, keeping those that hold the times
 // in keep (the ends of the current step).
-func (b *Parabolic) freeLoad(keep ...float64) *loadCache {
+func (b *Evolution) freeLoad(keep ...float64) *loadCache {
 	for i := range b.loads {
 		if c := &b.loads[i]; !c.ok || !slices.Contains(keep, c.t) {
 			if c.v == nil {
@@ -52,7 +52,7 @@ func (b *Parabolic) freeLoad(keep ...float64) *loadCache {
 // recordLoad prepares a slot to record f(·, t) from the calls of a flux
 // projection, or returns nil when the slot already holds t (then the
 // projection reads it) or the projection cannot share the rule.
-func (b *Parabolic) recordLoad(t float64) *loadCache {
+func (b *Evolution) recordLoad(t float64) *loadCache {
 	if b.p.F == nil || b.loadAt(t) != nil || !b.shareLoad {
 		return nil
 	}
@@ -63,7 +63,7 @@ func (b *Parabolic) recordLoad(t float64) *loadCache {
 
 // f returns f at point i of the residual terms' space rule in cell k (physical point x, y)
 // at time t, from a slot when one holds t.
-func (b *Parabolic) f(c *loadCache, k, i int, x, y, t float64) float64 {
+func (b *Evolution) f(c *loadCache, k, i int, x, y, t float64) float64 {
 	if c != nil {
 		return c.v[k*len(b.rlam)+i]
 	}
@@ -72,7 +72,7 @@ func (b *Parabolic) f(c *loadCache, k, i int, x, y, t float64) float64 {
 
 // index returns the slot index of the call (k, lam) if it is the one the
 // recording expects (the rule's points in order, cell by cell), else −1.
-func (b *Parabolic) index(c *loadCache, k int, lam [3]float64) int {
+func (b *Evolution) index(c *loadCache, k int, lam [3]float64) int {
 	np := len(b.rlam)
 	if c.broken || c.next >= len(c.v) || c.next/np != k || b.rlam[c.next%np] != lam {
 		c.broken = true
@@ -94,9 +94,9 @@ func (c *loadCache) finishRecord() {
 // stepper evaluated them for its load (nonlinear.EvolveOptions.Load), so
 // that the flux projection and the residual terms of the steps next to t1
 // use them instead of evaluating f again. Samples of another degree than
-// ParabolicOptions.LoadDegree, or with Split > 1, are ignored. The caller
-// vouches that vals are values of ParabolicProblem.F.
-func (b *Parabolic) LoadSamples(t1 float64, degree int, vals []float64) {
+// EvolutionOptions.LoadDegree, or with Split > 1, are ignored. The caller
+// vouches that vals are values of the problem's F.
+func (b *Evolution) LoadSamples(t1 float64, degree int, vals []float64) {
 	if b.p.F == nil || degree != b.o.LoadDegree || b.o.Split != 1 || len(vals) != b.s.Mesh.NumCells()*len(b.rlam) {
 		return
 	}

@@ -1,4 +1,4 @@
-package nonlinear
+package problem
 
 import (
 	"fmt"
@@ -86,9 +86,9 @@ func (m *Manufactured) Source(x, y, t float64) float64 {
 	return m.grad[2] - (d[0]*h[0] + 2*d[1]*h[1] + d[2]*h[3])
 }
 
-// Steady returns the source, Dirichlet data and exact gradient at time t as
-// functions of (x, y), in the form Problem and the fem error routines take.
-func (m *Manufactured) Steady(t float64) (f, u func(x, y float64) float64, grad func(x, y float64) (float64, float64)) {
+// At returns the source, Dirichlet data and exact gradient at time t as
+// functions of (x, y), in the form the solver and the error integrals take.
+func (m *Manufactured) At(t float64) (f, u func(x, y float64) float64, grad func(x, y float64) (float64, float64)) {
 	f = func(x, y float64) float64 { return m.Source(x, y, t) }
 	u = func(x, y float64) float64 { return m.U(x, y, t) }
 	grad = func(x, y float64) (float64, float64) { return m.Grad(x, y, t) }

@@ -1,4 +1,4 @@
-package notebook
+package markdown
 
 import (
 	"regexp"
@@ -55,7 +55,7 @@ func TestMarkdownHostile(t *testing.T) {
 		"<iframe src=https://x.example></iframe>",
 	}
 	for _, s := range srcs {
-		inert(t, s, Markdown(s))
+		inert(t, s, Render(s))
 	}
 }
 
@@ -79,28 +79,9 @@ func TestMarkdownLinksAndMath(t *testing.T) {
 <div class="math-display"><math xmlns="http://www.w3.org/1998/Math/MathML" display="block"><msup><mi>a</mi><mn>2</mn></msup><mo>+</mo>`, ""},
 	}
 	for _, tt := range tests {
-		got := Markdown(tt.src)
+		got := Render(tt.src)
 		if !strings.Contains(got, tt.want) || tt.absent != "" && strings.Contains(got, tt.absent) {
 			t.Errorf("%q → %q; want %q without %q", tt.src, got, tt.want, tt.absent)
 		}
-	}
-}
-
-func TestReportInertAndComplete(t *testing.T) {
-	nb := chain()
-	nb.Title = `<script>alert(1)</script>"onload="x`
-	nb.Cells = append(nb.Cells, cell("n", "note", map[string]any{"text": "[x](javascript:alert(1)) <b onmouseover=alert(1)>"}))
-	nb.Cells[0].Inputs[`<img src=x onerror=alert(1)>`] = []byte(`"<script>"`)
-	nb.Cells[1].SetInput("mode", "fail")
-	ev := mustEval(t, NewEngine(), nb, Options{})
-	html := string(Report(nb, ev))
-	inert(t, "report", html)
-	for _, want := range []string{"&lt;script&gt;alert(1)&lt;/script&gt;", "Caution.", "licensed engineers", "needs cell b, which failed", "cell b: input mode: asked to fail", `<td class="num">7</td>`, "Content-Security-Policy"} {
-		if !strings.Contains(html, want) {
-			t.Errorf("report lacks %q", want)
-		}
-	}
-	if i, j := strings.Index(html, "Caution."), strings.Index(html, `class="cell `); i < 0 || j < i {
-		t.Error("the caution must come before the cells")
 	}
 }

@@ -3,6 +3,7 @@ package estimate
 import (
 	"context"
 	"fmt"
+	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -13,7 +14,7 @@ import (
 )
 
 // barenblatt is the source-type solution of u_t = div(|∇u|^{p−2}∇u) in R^n,
-// p > 2 (CHECKS.md item 10: DiBenedetto, Degenerate Parabolic Equations,
+// p > 2 (docs/checks.md item 10: DiBenedetto, Degenerate Evolution Equations,
 // 1993; Kamin & Vázquez 1988, from memory, so TestBarenblattResidual
 // verifies it):
 //
@@ -61,7 +62,7 @@ func (b barenblatt) radius(t float64) float64 {
 
 // mass is ∫B by the Beta function: with r^{p'} = (C/γ) s,
 // ∫B = |S^{n−1}| C^m (C/γ)^{n/p'} B(n/p', m + 1)/p', m = (p−1)/(p−2),
-// |S⁰| = 2, |S¹| = 2π (derived here, independent of CHECKS.md item 10).
+// |S⁰| = 2, |S¹| = 2π (derived here, independent of docs/checks.md item 10).
 func (b barenblatt) mass() float64 {
 	sphere := 2.0
 	if b.n == 2 {
@@ -77,16 +78,16 @@ func (b barenblatt) mass() float64 {
 // TestBarenblattResidual checks the closed form: the finite-difference
 // residual of u_t − div(|∇u|^{p−2}∇u) (analytic gradient, central
 // differences of the flux and in time) at 0.1–0.9 of the support radius is
-// below 1e-6 of |u_t| + |div| (CHECKS.md item 10 reports the same check),
-// and the mass by the Beta function matches CHECKS.md item 10 (C = 1).
+// below 1e-6 of |u_t| + |div| (docs/checks.md item 10 reports the same check),
+// and the mass by the Beta function matches docs/checks.md item 10 (C = 1).
 func TestBarenblattResidual(t *testing.T) {
-	masses := map[[2]float64]float64{ // CHECKS.md item 10, [N]
+	masses := map[[2]float64]float64{ // docs/checks.md item 10, [N]
 		{1, 3}: 2.97173452, {1, 4}: 2.52294596, {2, 3}: 10.22035577, {2, 4}: 7.40220331,
 	}
 	for key, want := range masses {
 		b := newBarenblatt(key[0], key[1], 1)
 		if got := b.mass(); math.Abs(got-want) > 1e-8*want {
-			t.Errorf("n = %g, p = %g: mass %.10f, CHECKS.md %.8f", key[0], key[1], got, want)
+			t.Errorf("n = %g, p = %g: mass %.10f, docs/checks.md %.8f", key[0], key[1], got, want)
 		}
 		const tt, h = 1.3, 1e-4
 		flux := func(x, y float64) [2]float64 {
@@ -114,7 +115,7 @@ func TestBarenblattResidual(t *testing.T) {
 
 // barenblattRun solves the Barenblatt problem on (−L, L)^n from t0 to T
 // with N steps and accumulates the bounds (RT1, y* linear in time).
-func barenblattRun(t testing.TB, n int, p float64, cells, steps int, t0, T float64) (*ParabolicResult, *fem.P1, []float64, []float64) {
+func barenblattRun(t testing.TB, n int, p float64, cells, steps int, t0, T float64) (*EvolutionResult, *fem.P1, []float64, []float64) {
 	t.Helper()
 	const L = 5
 	b := newBarenblatt(float64(n), p, 1)
@@ -134,7 +135,7 @@ func barenblattRun(t testing.TB, n int, p float64, cells, steps int, t0, T float
 	if n == 2 {
 		ex.Split, ex.TimePoints = 3, 3
 	}
-	pb := must(NewParabolic(s, ParabolicProblem{G: G, U0: u0}, ParabolicOptions{
+	pb := must(NewEvolution(s, problem.Evolution(G, nil, nil, u0, 0, 0), EvolutionOptions{
 		Split: 2, InTime: LinearInTime, Equilibrate: EquilibrateOptions{Order: 1}, Exact: ex}))
 	var v0 []float64
 	first := func(ctx context.Context, a, c float64, va, vc []float64) error {
@@ -143,8 +144,8 @@ func barenblattRun(t testing.TB, n int, p float64, cells, steps int, t0, T float
 		}
 		return pb.Step(ctx, a, c, va, vc)
 	}
-	ev, err := nonlinear.Evolve(context.Background(), m, nonlinear.Evolution{G: G, U0: u0, T0: t0, T: T, Steps: steps},
-		nonlinear.EvolveOptions{Newton: nonlinear.Options{ResTol: 1e-12}}, first)
+	ev, err := nonlinear.Evolve(context.Background(), m, problem.Evolution(G, nil, nil, u0, t0, T),
+		nonlinear.EvolveOptions{Steps: steps, Newton: nonlinear.Options{ResTol: 1e-12}}, first)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -167,7 +168,7 @@ func p1Mass(s *fem.P1, v []float64) float64 {
 // from t0 = 1 to T = 1.5 on two meshes: the error measure S(T) falls under
 // refinement, the discrete mass on the finer mesh stays that of v_0 (implicit Euler with P1
 // conserves it while the support stays inside: the test function 1 is then
-// admissible), v_0 has the mass of CHECKS.md item 10 up to the
+// admissible), v_0 has the mass of docs/checks.md item 10 up to the
 // interpolation error, and all three majorants bound S(T) and max S(t_n)
 // with no allowance. With RT1 and f = 0 the residual vanishes
 // (div y* = Π1 ∂_t v = ∂_t v), so every majorant equals

@@ -1,4 +1,4 @@
-package nonlinear
+package problem
 
 import (
 	"fmt"
@@ -8,7 +8,7 @@ import (
 	"gapbook/convex"
 )
 
-// Manufacture against closed forms: CHECKS.md item 9 (the 1-D profile with
+// Manufacture against closed forms: docs/checks.md item 9 (the 1-D profile with
 // −(|u'|^{p−2}u')' = 1, and the disk solution with −Δ_p u = 1 in 2-D) and
 // item 12 (u = |x|^a, −Δ_p u = −a^{p−1}((a−1)(p−1) + n − 1)|x|^{(a−1)(p−1)−1}),
 // both [D]; and ∂_t u for a time-dependent formula.

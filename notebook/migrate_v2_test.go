@@ -1,0 +1,73 @@
+package notebook
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// TestMigrateV1Examples loads every example as version 1 saved it, with its
+// results (testdata/v1, written by the version-1 code from the examples of
+// that time), and checks the migration: no input is called alpha any more,
+// every saved result stays current (the saved hashes move to version 2),
+// the inputs are those of the version-2 example, and a rerun reproduces
+// every saved digest.
+func TestMigrateV1Examples(t *testing.T) {
+	files, _ := filepath.Glob("testdata/v1/*.gapbook")
+	if len(files) != 5 {
+		t.Fatalf("%d version-1 examples, want 5", len(files))
+	}
+	for _, f := range files {
+		t.Run(filepath.Base(f), func(t *testing.T) {
+			data, err := os.ReadFile(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !strings.Contains(string(data), `"gapbook": 1,`) || !strings.Contains(string(data), `"alpha"`) {
+				t.Fatal("not a version-1 file with an alpha input")
+			}
+			nb, err := Load(data)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(nb.Migration) == 0 || !strings.Contains(strings.Join(nb.Migration, "\n"), "input alpha renamed p") {
+				t.Errorf("migration notes %q", nb.Migration)
+			}
+			for _, c := range nb.Cells {
+				if _, ok := c.Inputs["alpha"]; ok {
+					t.Errorf("cell %s keeps an input alpha", c.ID)
+				}
+			}
+			for _, o := range nb.States() {
+				if o.Status != StatusOK {
+					t.Errorf("cell %s is %s after migration, want its saved results current", o.ID, o.Status)
+				}
+			}
+			cur, err := os.ReadFile(filepath.Join("..", "examples", filepath.Base(f)))
+			if err != nil {
+				t.Fatal(err)
+			}
+			nb2, err := Load(cur)
+			if err != nil {
+				t.Fatal(err)
+			}
+			h1, h2 := nb.hashes(false), nb2.hashes(false)
+			for i := range h1 {
+				if h1[i] == "" || h1[i] != h2[i] {
+					t.Errorf("cell %s: migrated inputs differ from the version-2 example", nb.Cells[i].ID)
+				}
+			}
+			ev, err := NewEngine().Evaluate(context.Background(), nb, Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			for _, o := range ev.Cells {
+				if o.Status != StatusOK || o.Reproduced != "yes" {
+					t.Errorf("cell %s: %s, reproduced %q %v", o.ID, o.Status, o.Reproduced, o.Differences)
+				}
+			}
+		})
+	}
+}
