@@ -27,35 +27,35 @@ var migrations = map[int]func(doc map[string]any) error{}
 // editor can open it and show them; otherwise the notebook is nil.
 func Load(data []byte) (*Notebook, error) {
 	if len(data) > MaxFileBytes {
-		return nil, &LoadError{[]Problem{{"", fmt.Sprintf("file is %d bytes; at most %d allowed", len(data), MaxFileBytes)}}}
+		return nil, &LoadError{[]Diagnostic{{"", fmt.Sprintf("file is %d bytes; at most %d allowed", len(data), MaxFileBytes)}}}
 	}
 	if !utf8.Valid(data) {
-		return nil, &LoadError{[]Problem{{"", "file is not valid UTF-8 text"}}}
+		return nil, &LoadError{[]Diagnostic{{"", "file is not valid UTF-8 text"}}}
 	}
 	d := json.NewDecoder(bytes.NewReader(data))
 	d.UseNumber()
 	var v any
 	if err := d.Decode(&v); err != nil {
-		return nil, &LoadError{[]Problem{{"", syntaxMsg(data, err)}}}
+		return nil, &LoadError{[]Diagnostic{{"", syntaxMsg(data, err)}}}
 	}
 	if _, err := d.Token(); err == nil {
-		return nil, &LoadError{[]Problem{{"", fmt.Sprintf("unexpected data after the document at %s", lineCol(data, d.InputOffset()))}}}
+		return nil, &LoadError{[]Diagnostic{{"", fmt.Sprintf("unexpected data after the document at %s", lineCol(data, d.InputOffset()))}}}
 	}
-	var hard []Problem
+	var hard []Diagnostic
 	checkTree(v, "", 0, &hard)
 	if len(hard) > 0 {
 		return nil, &LoadError{hard}
 	}
 	if p := checkDuplicateKeys(data); p != nil {
-		return nil, &LoadError{[]Problem{*p}}
+		return nil, &LoadError{[]Diagnostic{*p}}
 	}
 	doc, ok := v.(map[string]any)
 	if !ok {
-		return nil, &LoadError{[]Problem{{"", "want a JSON object at the top of the file, got " + jsonType(v)}}}
+		return nil, &LoadError{[]Diagnostic{{"", "want a JSON object at the top of the file, got " + jsonType(v)}}}
 	}
 	from := doc[versionKey]
 	if err := migrate(doc); err != nil {
-		return nil, &LoadError{[]Problem{{versionKey, err.Error()}}}
+		return nil, &LoadError{[]Diagnostic{{versionKey, err.Error()}}}
 	}
 	notes, _ := doc[migrationKey].([]string)
 	delete(doc, migrationKey)
@@ -104,8 +104,8 @@ func oldestVersion() int {
 }
 
 func decode(doc map[string]any) (*Notebook, error) {
-	var hard, soft []Problem
-	hardf := func(path, f string, a ...any) { hard = append(hard, Problem{path, fmt.Sprintf(f, a...)}) }
+	var hard, soft []Diagnostic
+	hardf := func(path, f string, a ...any) { hard = append(hard, Diagnostic{path, fmt.Sprintf(f, a...)}) }
 	nb := &Notebook{Extra: extras(doc, versionKey, "title", "cells", "history")}
 	if t, ok := doc["title"]; ok {
 		s, ok := t.(string)
@@ -187,8 +187,8 @@ func decode(doc map[string]any) (*Notebook, error) {
 
 // Check validates every cell against its kind: known kind, valid inputs,
 // references to earlier cells of the right kinds. Paths are as in a file.
-func (nb *Notebook) Check() []Problem {
-	var ps []Problem
+func (nb *Notebook) Check() []Diagnostic {
+	var ps []Diagnostic
 	pos := map[string]int{}
 	for i, c := range nb.Cells {
 		pos[c.ID] = i
@@ -197,16 +197,16 @@ func (nb *Notebook) Check() []Problem {
 		path := fmt.Sprintf("cells[%d]", i)
 		k, ok := Lookup(c.Kind)
 		if !ok {
-			ps = append(ps, Problem{path + ".kind", fmt.Sprintf("unknown kind %q; known kinds: %s", clip(c.Kind, 40), strings.Join(Kinds(), ", "))})
+			ps = append(ps, Diagnostic{path + ".kind", fmt.Sprintf("unknown kind %q; known kinds: %s", clip(c.Kind, 40), strings.Join(Kinds(), ", "))})
 			continue
 		}
 		vals, errs := ParseInputs(k, c.Inputs)
 		for _, e := range errs {
-			ps = append(ps, Problem{path + ".inputs." + e.Field, e.Msg})
+			ps = append(ps, Diagnostic{path + ".inputs." + e.Field, e.Msg})
 		}
 		for _, r := range refs(k, vals) {
 			if msg := nb.refProblem(i, r, pos); msg != "" {
-				ps = append(ps, Problem{path + ".inputs." + r.field, msg})
+				ps = append(ps, Diagnostic{path + ".inputs." + r.field, msg})
 			}
 		}
 	}
@@ -229,12 +229,12 @@ func (nb *Notebook) refProblem(i int, r refUse, pos map[string]int) string {
 	return ""
 }
 
-func decodeSaved(v any, path string) (*Saved, []Problem) {
+func decodeSaved(v any, path string) (*Saved, []Diagnostic) {
 	m, ok := v.(map[string]any)
 	if !ok {
-		return nil, []Problem{{path, "want an object of results, got " + jsonType(v)}}
+		return nil, []Diagnostic{{path, "want an object of results, got " + jsonType(v)}}
 	}
-	var ps []Problem
+	var ps []Diagnostic
 	s := &Saved{Extra: extras(m, "hash", "digest", "scalars", "tables", "plots", "fields"), Results: &Results{}}
 	for _, k := range []string{"hash", "digest"} {
 		h, present := m[k]
@@ -243,7 +243,7 @@ func decodeSaved(v any, path string) (*Saved, []Problem) {
 		}
 		str, ok := h.(string)
 		if !ok || !isHex64(str) {
-			ps = append(ps, Problem{path + "." + k, "want 64 hexadecimal digits (SHA-256), got " + clip(jsonText(h), 40)})
+			ps = append(ps, Diagnostic{path + "." + k, "want 64 hexadecimal digits (SHA-256), got " + clip(jsonText(h), 40)})
 		}
 		if k == "hash" {
 			s.Hash = str
@@ -258,33 +258,33 @@ func decodeSaved(v any, path string) (*Saved, []Problem) {
 	for _, p := range parts {
 		if raw, present := m[p.key]; present {
 			if err := strictUnmarshal(rawJSON(raw), p.dst); err != nil {
-				ps = append(ps, Problem{path + "." + p.key, jsonErr(err)})
+				ps = append(ps, Diagnostic{path + "." + p.key, jsonErr(err)})
 			}
 		}
 	}
 	if len(ps) == 0 {
 		for _, p := range s.Results.Check() {
-			ps = append(ps, Problem{path + "." + p.Path, p.Msg})
+			ps = append(ps, Diagnostic{path + "." + p.Path, p.Msg})
 		}
 	}
 	return s, ps
 }
 
-func decodeHistory(v any) ([]Run, []Problem) {
+func decodeHistory(v any) ([]Run, []Diagnostic) {
 	list, ok := v.([]any)
 	if !ok {
-		return nil, []Problem{{"history", "want a list of runs, got " + jsonType(v)}}
+		return nil, []Diagnostic{{"history", "want a list of runs, got " + jsonType(v)}}
 	}
 	if len(list) > MaxRuns {
-		return nil, []Problem{{"history", fmt.Sprintf("has %d runs; at most %d allowed", len(list), MaxRuns)}}
+		return nil, []Diagnostic{{"history", fmt.Sprintf("has %d runs; at most %d allowed", len(list), MaxRuns)}}
 	}
 	var runs []Run
-	var ps []Problem
+	var ps []Diagnostic
 	for i, e := range list {
 		path := fmt.Sprintf("history[%d]", i)
 		m, ok := e.(map[string]any)
 		if !ok {
-			ps = append(ps, Problem{path, "want a run object, got " + jsonType(e)})
+			ps = append(ps, Diagnostic{path, "want a run object, got " + jsonType(e)})
 			continue
 		}
 		r := Run{Extra: extras(m, "at", "label", "override", "inputs", "cells")}
@@ -295,7 +295,7 @@ func decodeHistory(v any) ([]Run, []Problem) {
 		for _, f := range fields {
 			if raw, present := m[f.key]; present {
 				if err := strictUnmarshal(rawJSON(raw), f.dst); err != nil {
-					ps = append(ps, Problem{path + "." + f.key, jsonErr(err)})
+					ps = append(ps, Diagnostic{path + "." + f.key, jsonErr(err)})
 				}
 			}
 		}
@@ -307,20 +307,20 @@ func decodeHistory(v any) ([]Run, []Problem) {
 // Save encodes nb as a file of the current format version: indented JSON,
 // known fields first in a fixed order, unknown fields kept.
 func Save(nb *Notebook) ([]byte, error) {
-	var ps []Problem
+	var ps []Diagnostic
 	if len(nb.Cells) > MaxCells {
-		ps = append(ps, Problem{"cells", fmt.Sprintf("has %d cells; at most %d allowed", len(nb.Cells), MaxCells)})
+		ps = append(ps, Diagnostic{"cells", fmt.Sprintf("has %d cells; at most %d allowed", len(nb.Cells), MaxCells)})
 	}
 	if len(nb.History) > MaxRuns {
-		ps = append(ps, Problem{"history", fmt.Sprintf("has %d runs; at most %d allowed", len(nb.History), MaxRuns)})
+		ps = append(ps, Diagnostic{"history", fmt.Sprintf("has %d runs; at most %d allowed", len(nb.History), MaxRuns)})
 	}
 	seen := map[string]int{}
 	cells := make([]any, len(nb.Cells))
 	for i, c := range nb.Cells {
 		if !ValidID(c.ID) {
-			ps = append(ps, Problem{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is not a valid id; use 1 to %d letters, digits, - and _", clip(c.ID, 40), MaxIDBytes)})
+			ps = append(ps, Diagnostic{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is not a valid id; use 1 to %d letters, digits, - and _", clip(c.ID, 40), MaxIDBytes)})
 		} else if j, dup := seen[c.ID]; dup {
-			ps = append(ps, Problem{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is already the id of cells[%d]; ids must be unique", c.ID, j)})
+			ps = append(ps, Diagnostic{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is already the id of cells[%d]; ids must be unique", c.ID, j)})
 		}
 		seen[c.ID] = i
 		o := obj{{"id", c.ID}, {"kind", c.Kind}, {"inputs", rawMap(c.Inputs)}}
@@ -488,18 +488,18 @@ func isHex64(s string) bool {
 
 // checkTree enforces the nesting and string-length limits everywhere,
 // including in fields this version does not know.
-func checkTree(v any, path string, depth int, ps *[]Problem) {
+func checkTree(v any, path string, depth int, ps *[]Diagnostic) {
 	if len(*ps) >= 50 {
 		return
 	}
 	if depth > MaxDepth {
-		*ps = append(*ps, Problem{path, fmt.Sprintf("nested deeper than %d levels", MaxDepth)})
+		*ps = append(*ps, Diagnostic{path, fmt.Sprintf("nested deeper than %d levels", MaxDepth)})
 		return
 	}
 	switch x := v.(type) {
 	case string:
 		if len(x) > MaxStringBytes {
-			*ps = append(*ps, Problem{path, fmt.Sprintf("text is %d bytes long; at most %d allowed", len(x), MaxStringBytes)})
+			*ps = append(*ps, Diagnostic{path, fmt.Sprintf("text is %d bytes long; at most %d allowed", len(x), MaxStringBytes)})
 		}
 	case []any:
 		for i, e := range x {
@@ -508,7 +508,7 @@ func checkTree(v any, path string, depth int, ps *[]Problem) {
 	case map[string]any:
 		for _, k := range slices.Sorted(maps.Keys(x)) {
 			if len(k) > MaxStringBytes {
-				*ps = append(*ps, Problem{path, fmt.Sprintf("a field name is %d bytes long; at most %d allowed", len(k), MaxStringBytes)})
+				*ps = append(*ps, Diagnostic{path, fmt.Sprintf("a field name is %d bytes long; at most %d allowed", len(k), MaxStringBytes)})
 				continue
 			}
 			checkTree(x[k], joinPath(path, k), depth+1, ps)
@@ -535,7 +535,7 @@ func joinPath(path, key string) string {
 
 // checkDuplicateKeys finds an object with the same key twice: the decoder
 // would silently keep the last one, and saving would then lose the other.
-func checkDuplicateKeys(data []byte) *Problem {
+func checkDuplicateKeys(data []byte) *Diagnostic {
 	d := json.NewDecoder(bytes.NewReader(data))
 	type frame struct {
 		obj    bool
@@ -555,7 +555,7 @@ func checkDuplicateKeys(data []byte) *Problem {
 		if top != nil && top.obj && top.expect {
 			if k, ok := t.(string); ok {
 				if top.keys[k] {
-					return &Problem{"", fmt.Sprintf("field %q appears twice in one object at %s; keep one", clip(k, 40), lineCol(data, d.InputOffset()))}
+					return &Diagnostic{"", fmt.Sprintf("field %q appears twice in one object at %s; keep one", clip(k, 40), lineCol(data, d.InputOffset()))}
 				}
 				top.keys[k] = true
 				top.expect = false

@@ -93,14 +93,14 @@ func ValidID(id string) bool {
 	return true
 }
 
-// Problem is one thing wrong in a file, at a path such as
+// Diagnostic is one thing wrong in a file, at a path such as
 // "cells[3].inputs.p".
-type Problem struct {
+type Diagnostic struct {
 	Path string
 	Msg  string
 }
 
-func (p Problem) String() string {
+func (p Diagnostic) String() string {
 	if p.Path == "" {
 		return p.Msg
 	}
@@ -109,7 +109,7 @@ func (p Problem) String() string {
 
 // LoadError lists every problem found in a file.
 type LoadError struct {
-	Problems []Problem
+	Problems []Diagnostic
 }
 
 func (e *LoadError) Error() string {

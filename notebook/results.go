@@ -146,9 +146,9 @@ func (r *Results) Table(name string) (*Table, bool) {
 
 // Check returns every inconsistency in r, each with its path below r
 // (for example "tables[0].rows[3]: has 2 values, want 3, one per column").
-func (r *Results) Check() []Problem {
-	var ps []Problem
-	add := func(path, f string, a ...any) { ps = append(ps, Problem{path, fmt.Sprintf(f, a...)}) }
+func (r *Results) Check() []Diagnostic {
+	var ps []Diagnostic
+	add := func(path, f string, a ...any) { ps = append(ps, Diagnostic{path, fmt.Sprintf(f, a...)}) }
 	seen := map[string]bool{}
 	for i, s := range r.Scalars {
 		p := fmt.Sprintf("scalars[%d]", i)
