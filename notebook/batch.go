@@ -30,7 +30,10 @@ type BatchCell struct {
 	Status Status                `json:"status"`
 	Error  string                `json:"error"`
 	Values map[string]BatchValue `json:"values"`
-	Digest string                `json:"digest,omitempty"`
+	// Intervals maps each interval's name to its ends (omitted when the
+	// cell has none).
+	Intervals map[string]BatchInterval `json:"intervals,omitempty"`
+	Digest    string                   `json:"digest,omitempty"`
 	// Reproduced is "yes" or "no" when the file had results for the same
 	// inputs, else empty.
 	Reproduced string `json:"reproduced,omitempty"`
@@ -42,6 +45,23 @@ type BatchValue struct {
 	Value *float64 `json:"value"`
 	Label Label    `json:"label"`
 	Unit  string   `json:"unit,omitempty"`
+}
+
+// BatchInterval is one interval in the JSON: Lower and Upper are null
+// when not finite; Ends names the scalars in values that hold them.
+type BatchInterval struct {
+	Lower *float64  `json:"lower"`
+	Upper *float64  `json:"upper"`
+	Label Label     `json:"label"`
+	Unit  string    `json:"unit,omitempty"`
+	Ends  [2]string `json:"ends"`
+}
+
+func finite(v float64) *float64 {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil
+	}
+	return &v
 }
 
 // BatchOutput is the object printed with --json.
@@ -145,6 +165,12 @@ func batchOutput(nb *Notebook, ev *Evaluation) *BatchOutput {
 					bv.Value = &v
 				}
 				bc.Values[s.Name] = bv
+			}
+			for _, iv := range o.Results.Intervals {
+				if bc.Intervals == nil {
+					bc.Intervals = map[string]BatchInterval{}
+				}
+				bc.Intervals[iv.Name] = BatchInterval{Lower: finite(iv.Lower), Upper: finite(iv.Upper), Label: iv.Label, Unit: iv.Unit, Ends: iv.Ends}
 			}
 		}
 		out.Cells = append(out.Cells, bc)

@@ -288,6 +288,9 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 	if res == nil {
 		res = &Results{}
 	}
+	if ek, ok := k.(Enclosing); ok && len(res.Intervals) == 0 {
+		res.AddIntervals(ek.Intervals())
+	}
 	if ps := res.Check(); len(ps) > 0 {
 		fail("", "the "+c.Kind+" kind produced inconsistent results: "+ps[0].String())
 		return

@@ -27,6 +27,14 @@ type Kind interface {
 	Evaluate(c *Context, in Values) (*Results, error)
 }
 
+// Enclosing is implemented by kinds whose results include intervals: pairs
+// of their scalars that enclose one quantity. The engine adds them to the
+// results after Evaluate (Results.AddIntervals), and loading a version-1
+// file adds them to saved results.
+type Enclosing interface {
+	Intervals() []IntervalDef
+}
+
 // Renderer is implemented by kinds that render their cell body themselves
 // (a note renders its text). The returned HTML must be safe: every string
 // from the file escaped.

@@ -30,6 +30,14 @@ const (
 	constWidth = "width bound"
 )
 
+func (boundKind) Intervals() []IntervalDef {
+	return []IntervalDef{
+		{Name: "error", Lower: "minorant", Upper: "majorant", Unit: "μ(v) = J(v) − J(u), the error of v in the problem's own measure"},
+		{Name: "energy", Lower: "energy_low", Upper: "energy_high", Unit: "J(u), the energy of the exact solution"},
+		{Name: "flow", Lower: "flow_low", Upper: "flow_high", Unit: "Q = ∫u, the flow rate of the exact solution"},
+	}
+}
+
 func (boundKind) Name() string { return "bound" }
 func (boundKind) Doc() string {
 	return "Guaranteed bounds of the error of a discrete solution: the error measure μ(v) = J(v) − J(u) from above and below, the flux error, the gradient norm, the energy J(u) and flow rate as intervals, and where the error sits."

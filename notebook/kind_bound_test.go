@@ -142,6 +142,17 @@ func TestBoundEnclosesExactError(t *testing.T) {
 			if mn := scalar(t, r, "minorant").Value; mn > mu*(1+1e-9) {
 				t.Errorf("minorant %g > μ(v) = %g", mn, mu)
 			}
+			// The error interval restates minorant and majorant and
+			// encloses the true error; the energy interval encloses
+			// J(u) = J(v) − μ(v).
+			iv := interval(t, r, "error")
+			if iv.Ends != [2]string{"minorant", "majorant"} || iv.Upper != maj || !(iv.Lower <= mu*(1+1e-9) && mu <= iv.Upper) || iv.Label != scalar(t, r, "majorant").Label {
+				t.Errorf("error interval %+v does not enclose μ(v) = %g", iv, mu)
+			}
+			ju := scalar(t, r, "discrete_energy").Value - mu
+			if e := interval(t, r, "energy"); !(e.Lower <= ju+1e-9*math.Abs(ju) && ju-1e-9*math.Abs(ju) <= e.Upper) {
+				t.Errorf("energy interval %+v does not enclose J(u) = %g", e, ju)
+			}
 			if d, db := scalar(t, r, "dual_error").Value, scalar(t, r, "dual_majorant").Value; d > db {
 				t.Errorf("μ* = %g > its bound %g", d, db)
 			}
@@ -265,5 +276,40 @@ func TestConstantKind(t *testing.T) {
 	}
 	if _, ok := okCell(t, ev, "cl").Scalar("poincare_bound"); ok {
 		t.Error("a Poincaré bound for the non-convex L-shape")
+	}
+}
+
+func interval(t *testing.T, r *Results, name string) Interval {
+	t.Helper()
+	for _, iv := range r.Intervals {
+		if iv.Name == name {
+			return iv
+		}
+	}
+	t.Fatalf("no interval %s in %+v", name, r.Intervals)
+	return Interval{}
+}
+
+// Check refuses intervals that do not restate their scalars.
+func TestIntervalsRestateScalars(t *testing.T) {
+	r := &Results{Scalars: []Scalar{{Name: "lo", Value: 1, Label: Guaranteed, Unit: "x"}, {Name: "hi", Value: 2, Label: Estimate, Unit: "x"}}}
+	r.AddIntervals([]IntervalDef{{Name: "x", Lower: "lo", Upper: "hi"}, {Name: "absent", Lower: "lo", Upper: "nope"}})
+	if len(r.Intervals) != 1 || r.Intervals[0].Label != Estimate || r.Intervals[0].Lower != 1 || r.Intervals[0].Upper != 2 {
+		t.Fatalf("intervals %+v; want one, labelled estimate (the weaker end)", r.Intervals)
+	}
+	if ps := r.Check(); len(ps) != 0 {
+		t.Fatalf("consistent intervals refused: %v", ps)
+	}
+	for _, bad := range []func(*Interval){
+		func(iv *Interval) { iv.Upper = 3 },
+		func(iv *Interval) { iv.Label = Guaranteed },
+		func(iv *Interval) { iv.Ends[1] = "nope" },
+	} {
+		c := *r
+		c.Intervals = []Interval{r.Intervals[0]}
+		bad(&c.Intervals[0])
+		if ps := c.Check(); len(ps) == 0 {
+			t.Errorf("inconsistent interval %+v accepted", c.Intervals[0])
+		}
 	}
 }

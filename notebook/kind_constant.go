@@ -14,6 +14,10 @@ func init() { Register(constantKind{}) }
 // constantKind computes Friedrichs and Poincaré constants of a domain.
 type constantKind struct{}
 
+func (constantKind) Intervals() []IntervalDef {
+	return []IntervalDef{{Name: "eigenvalue", Lower: "eigenvalue_low", Upper: "eigenvalue_high", Unit: "λ₁, the first Dirichlet eigenvalue of the Laplacian on Ω"}}
+}
+
 func (constantKind) Name() string { return "constant" }
 func (constantKind) Doc() string {
 	return "Friedrichs constant C in ‖w‖_α ≤ C ‖∇w‖_α (w = 0 on the boundary) and, on convex domains, the Poincaré constant, with guaranteed bounds and an estimate."

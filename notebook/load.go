@@ -235,7 +235,7 @@ func decodeSaved(v any, path string) (*Saved, []Diagnostic) {
 		return nil, []Diagnostic{{path, "want an object of results, got " + jsonType(v)}}
 	}
 	var ps []Diagnostic
-	s := &Saved{Extra: extras(m, "hash", "digest", "scalars", "tables", "plots", "fields"), Results: &Results{}}
+	s := &Saved{Extra: extras(m, "hash", "digest", "scalars", "intervals", "tables", "plots", "fields"), Results: &Results{}}
 	for _, k := range []string{"hash", "digest"} {
 		h, present := m[k]
 		if !present {
@@ -254,7 +254,7 @@ func decodeSaved(v any, path string) (*Saved, []Diagnostic) {
 	parts := []struct {
 		key string
 		dst any
-	}{{"scalars", &s.Results.Scalars}, {"tables", &s.Results.Tables}, {"plots", &s.Results.Plots}, {"fields", &s.Results.Fields}}
+	}{{"scalars", &s.Results.Scalars}, {"intervals", &s.Results.Intervals}, {"tables", &s.Results.Tables}, {"plots", &s.Results.Plots}, {"fields", &s.Results.Fields}}
 	for _, p := range parts {
 		if raw, present := m[p.key]; present {
 			if err := strictUnmarshal(rawJSON(raw), p.dst); err != nil {
@@ -340,7 +340,7 @@ func Save(nb *Notebook) ([]byte, error) {
 				k string
 				n int
 				v any
-			}{{"scalars", len(r.Scalars), r.Scalars}, {"tables", len(r.Tables), r.Tables}, {"plots", len(r.Plots), r.Plots}, {"fields", len(r.Fields), r.Fields}} {
+			}{{"scalars", len(r.Scalars), r.Scalars}, {"intervals", len(r.Intervals), r.Intervals}, {"tables", len(r.Tables), r.Tables}, {"plots", len(r.Plots), r.Plots}, {"fields", len(r.Fields), r.Fields}} {
 				if p.n > 0 {
 					so = append(so, kv{p.k, p.v})
 				}

@@ -176,6 +176,16 @@ func (nb *Notebook) rehashV1() {
 				s.Digest = s.Results.Digest()
 			}
 		}
+		// Version 2 carries intervals; they restate saved scalars, so the
+		// digest is unchanged.
+		k, ok := Lookup(c.Kind)
+		ek, enclosing := k.(Enclosing)
+		if s := c.Saved; ok && enclosing && s != nil && s.Results != nil && len(s.Results.Intervals) == 0 {
+			s.Results.AddIntervals(ek.Intervals())
+			if n := len(s.Results.Intervals); n > 0 {
+				nb.Migration = append(nb.Migration, fmt.Sprintf("cells[%d] (%s, %s): %d interval(s) added from the saved scalars", i, c.ID, c.Kind, n))
+			}
+		}
 	}
 }
 

@@ -40,6 +40,11 @@ func TestMigrateV1Examples(t *testing.T) {
 					t.Errorf("cell %s keeps an input alpha", c.ID)
 				}
 			}
+			for _, c := range nb.Cells {
+				if c.Kind == "bound" && c.Saved != nil && len(c.Saved.Results.Intervals) == 0 {
+					t.Errorf("bound cell %s: no intervals added to its saved results", c.ID)
+				}
+			}
 			for _, o := range nb.States() {
 				if o.Status != StatusOK {
 					t.Errorf("cell %s is %s after migration, want its saved results current", o.ID, o.Status)

@@ -16,8 +16,9 @@ func esc(s string) string { return html.EscapeString(s) }
 // FormatNumber writes v for people: up to 6 significant digits.
 func FormatNumber(v float64) string { return strconv.FormatFloat(v, 'g', 6, 64) }
 
-// RenderResults renders results as a safe HTML fragment: scalars as a
-// table with their labels, tables, plots and fields as inline SVG.
+// RenderResults renders results as a safe HTML fragment: scalars and
+// intervals as tables with their labels, tables, plots and fields as
+// inline SVG.
 func RenderResults(r *Results) string {
 	if r == nil {
 		return ""
@@ -28,6 +29,14 @@ func RenderResults(r *Results) string {
 		for _, s := range r.Scalars {
 			fmt.Fprintf(&b, `<tr><td>%s</td><td class="num">%s</td><td><span class="label label-%s">%s</span></td><td>%s</td></tr>`,
 				esc(s.Name), esc(FormatNumber(s.Value)), labelClass(s.Label), esc(string(s.Label)), esc(s.Unit))
+		}
+		b.WriteString(`</tbody></table>`)
+	}
+	if len(r.Intervals) > 0 {
+		b.WriteString(`<table class="intervals"><thead><tr><th>interval</th><th>lower</th><th>upper</th><th>label</th><th>encloses</th></tr></thead><tbody>`)
+		for _, iv := range r.Intervals {
+			fmt.Fprintf(&b, `<tr><td>%s</td><td class="num">%s</td><td class="num">%s</td><td><span class="label label-%s">%s</span></td><td>%s</td></tr>`,
+				esc(iv.Name), esc(FormatNumber(iv.Lower)), esc(FormatNumber(iv.Upper)), labelClass(iv.Label), esc(string(iv.Label)), esc(iv.Unit))
 		}
 		b.WriteString(`</tbody></table>`)
 	}

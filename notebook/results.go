@@ -37,6 +37,80 @@ type Scalar struct {
 	Unit string `json:"unit,omitempty"`
 }
 
+// Interval is a two-sided enclosure Lower ≤ quantity ≤ Upper whose ends
+// are two of the cell's scalars, named by Ends, so that a script reading
+// scalars and one reading intervals agree. Its label is the weaker of the
+// two ends' labels (guaranteed only when both are). Intervals restate
+// scalars, so the digest covers them through their ends.
+type Interval struct {
+	Name  string  `json:"name"`
+	Lower float64 `json:"lower"`
+	Upper float64 `json:"upper"`
+	Label Label   `json:"label"`
+	// Unit says what is enclosed, e.g. "J(u), the energy of the exact
+	// solution".
+	Unit string    `json:"unit,omitempty"`
+	Ends [2]string `json:"ends"`
+}
+
+// IntervalDef names an interval by the scalars at its ends.
+type IntervalDef struct {
+	Name, Lower, Upper, Unit string
+}
+
+// weaker returns the label a number computed from a and b may carry.
+func weaker(a, b Label) Label {
+	switch {
+	case a == Estimate || b == Estimate:
+		return Estimate
+	case a == Guaranteed && b == Guaranteed:
+		return Guaranteed
+	case a == Reference && b == Reference:
+		return Reference
+	}
+	return Estimate
+}
+
+// AddIntervals appends the intervals of defs whose two ends are among r's
+// scalars (an interval whose end was not computed is left out).
+func (r *Results) AddIntervals(defs []IntervalDef) {
+	for _, d := range defs {
+		lo, ok1 := r.Scalar(d.Lower)
+		hi, ok2 := r.Scalar(d.Upper)
+		if !ok1 || !ok2 {
+			continue
+		}
+		r.Intervals = append(r.Intervals, Interval{Name: d.Name, Lower: lo.Value, Upper: hi.Value,
+			Label: weaker(lo.Label, hi.Label), Unit: d.Unit, Ends: [2]string{d.Lower, d.Upper}})
+	}
+}
+
+// MarshalJSON writes the ends as numbers, or as "NaN", "Inf", "-Inf".
+func (iv Interval) MarshalJSON() ([]byte, error) {
+	type plain Interval
+	return json.Marshal(struct {
+		plain
+		Lower num `json:"lower"`
+		Upper num `json:"upper"`
+	}{plain(iv), num(iv.Lower), num(iv.Upper)})
+}
+
+// UnmarshalJSON reads what MarshalJSON writes.
+func (iv *Interval) UnmarshalJSON(b []byte) error {
+	type plain Interval
+	var w struct {
+		plain
+		Lower num `json:"lower"`
+		Upper num `json:"upper"`
+	}
+	if err := strictUnmarshal(b, &w); err != nil {
+		return err
+	}
+	*iv = Interval(w.plain)
+	iv.Lower, iv.Upper = float64(w.Lower), float64(w.Upper)
+	return nil
+}
+
 // Column names one column of a table.
 type Column struct {
 	Name string `json:"name"`
@@ -110,10 +184,11 @@ type Field struct {
 // saved in the file and covered by the digest; Objects are in-memory values
 // (a discrete solution, a mesh) handed to dependent cells and never saved.
 type Results struct {
-	Scalars []Scalar `json:"scalars,omitempty"`
-	Tables  []Table  `json:"tables,omitempty"`
-	Plots   []Plot   `json:"plots,omitempty"`
-	Fields  []Field  `json:"fields,omitempty"`
+	Scalars   []Scalar   `json:"scalars,omitempty"`
+	Intervals []Interval `json:"intervals,omitempty"`
+	Tables    []Table    `json:"tables,omitempty"`
+	Plots     []Plot     `json:"plots,omitempty"`
+	Fields    []Field    `json:"fields,omitempty"`
 
 	Objects map[string]any `json:"-"`
 }
@@ -161,6 +236,27 @@ func (r *Results) Check() []Diagnostic {
 		seen[s.Name] = true
 		if !s.Label.Valid() {
 			add(p+".label", "want guaranteed, estimate or reference, got %q", string(s.Label))
+		}
+	}
+	names := map[string]bool{}
+	for i, iv := range r.Intervals {
+		p := fmt.Sprintf("intervals[%d]", i)
+		switch {
+		case iv.Name == "":
+			add(p+".name", "empty; every result needs a name")
+		case names[iv.Name]:
+			add(p+".name", "%q is used twice; interval names must be unique", iv.Name)
+		}
+		names[iv.Name] = true
+		lo, ok1 := r.Scalar(iv.Ends[0])
+		hi, ok2 := r.Scalar(iv.Ends[1])
+		switch {
+		case !ok1 || !ok2:
+			add(p+".ends", "want the names of two scalars of the cell, got %q and %q", iv.Ends[0], iv.Ends[1])
+		case !sameNumber(lo.Value, iv.Lower) || !sameNumber(hi.Value, iv.Upper):
+			add(p, "ends %g and %g are not the values %g and %g of scalars %s and %s", iv.Lower, iv.Upper, lo.Value, hi.Value, lo.Name, hi.Name)
+		case iv.Label != weaker(lo.Label, hi.Label):
+			add(p+".label", "want %s, the weaker label of its ends, got %q", weaker(lo.Label, hi.Label), string(iv.Label))
 		}
 	}
 	for i, t := range r.Tables {
@@ -384,6 +480,8 @@ func describe(kind, name, a, b string) string {
 	}
 	return fmt.Sprintf("%s %s: %d values differ", kind, name, n)
 }
+
+func sameNumber(a, b float64) bool { return a == b || math.IsNaN(a) && math.IsNaN(b) }
 
 // num is a float64 that also travels through JSON when it is not finite
 // (as the strings "NaN", "Inf", "-Inf"), since a failed run in a sweep

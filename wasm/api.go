@@ -96,6 +96,15 @@ type scalarView struct {
 	Unit  string `json:"unit,omitempty"`
 }
 
+// intervalView is an interval as the page shows it: its ends are the
+// scalars named in Ends, shown in the same row.
+type intervalView struct {
+	Name  string    `json:"name"`
+	Label string    `json:"label"`
+	Unit  string    `json:"unit,omitempty"`
+	Ends  [2]string `json:"ends"`
+}
+
 type errView struct {
 	Field string `json:"field,omitempty"`
 	Msg   string `json:"msg"`
@@ -104,12 +113,13 @@ type errView struct {
 
 // cellView is one cell's state and rendered results.
 type cellView struct {
-	ID      string       `json:"id"`
-	Kind    string       `json:"kind"`
-	Status  string       `json:"status"`
-	Error   *errView     `json:"error,omitempty"`
-	Body    string       `json:"body,omitempty"`
-	Scalars []scalarView `json:"scalars"`
+	ID        string         `json:"id"`
+	Kind      string         `json:"kind"`
+	Status    string         `json:"status"`
+	Error     *errView       `json:"error,omitempty"`
+	Body      string         `json:"body,omitempty"`
+	Scalars   []scalarView   `json:"scalars"`
+	Intervals []intervalView `json:"intervals,omitempty"`
 	// HTML renders tables, plots and fields (safe: everything escaped).
 	HTML        string   `json:"html"`
 	Tables      []string `json:"tables"`
@@ -169,6 +179,9 @@ func view(c *notebook.Cell, o *notebook.Outcome) cellView {
 	if r := o.Results; r != nil {
 		for _, s := range r.Scalars {
 			v.Scalars = append(v.Scalars, scalarView{s.Name, fullNumber(s.Value), notebook.FormatNumber(s.Value), string(s.Label), s.Unit})
+		}
+		for _, iv := range r.Intervals {
+			v.Intervals = append(v.Intervals, intervalView{iv.Name, string(iv.Label), iv.Unit, iv.Ends})
 		}
 		rest := &notebook.Results{Tables: r.Tables, Plots: r.Plots, Fields: r.Fields}
 		v.HTML = notebook.RenderResults(rest)

@@ -463,6 +463,12 @@ func TestEditExponentInProblemCell(t *testing.T) {
 	if !(minor > 0 && minor <= after) {
 		t.Errorf("minorant %g, majorant %g: not an interval", minor, after)
 	}
+	// The bound cell shows its error interval as one row with both ends.
+	ends := eval[string](tb, `(() => { const r = document.querySelector('#cell-bound tr.interval[data-interval="error"]');
+		return r ? [...r.querySelectorAll('.value')].map(v => v.dataset.name).join(',') + ' ' + r.querySelector('.label, [class*=label]')?.textContent : 'none' })()`)
+	if !strings.HasPrefix(ends, "minorant,majorant ") {
+		t.Errorf("error interval row: %q, want the minorant and the majorant in one row", ends)
+	}
 	// The same edit natively: the page's values must be those of gapbook run.
 	nb, err := notebook.Load(readFile(t, "../examples/default.gapbook"))
 	if err != nil {

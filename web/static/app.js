@@ -414,7 +414,7 @@ function applyView(sec, v) {
   const res = sec.querySelector('.results');
   if (res) {
     res.replaceChildren();
-    if (v.scalars.length) res.append(scalarTable(v.scalars));
+    if (v.scalars.length) res.append(scalarTable(v.scalars, v.intervals));
     if (v.html) {
       const box = el('div', { class: 'rendered' });
       box.innerHTML = v.html;
@@ -452,39 +452,26 @@ function applyView(sec, v) {
   }
 }
 
-// Pairs "x lower"/"x upper" (or low/high, lo/hi) become one interval.
-const END = /^(.*?)[ _.-]?(lower|upper|low|high|lo|hi)$/i;
-
-function scalarTable(scalars) {
+// Each interval of the results is one row [lower, upper] with its label;
+// the scalars at its ends are shown there and not again on their own.
+function scalarTable(scalars, intervals) {
   const t = el('table', { class: 'scalars' },
     el('thead', {}, el('tr', {}, el('th', { scope: 'col', text: 'quantity' }), el('th', { scope: 'col', text: 'value' }),
       el('th', { scope: 'col', text: 'label' }), el('th', { scope: 'col', text: 'unit or meaning' }))));
   const tb = el('tbody');
   const byName = new Map(scalars.map((s) => [s.name, s]));
   const used = new Set();
+  for (const iv of intervals || []) {
+    const lo = byName.get(iv.ends[0]), hi = byName.get(iv.ends[1]);
+    if (!lo || !hi) continue;
+    used.add(lo.name); used.add(hi.name);
+    tb.append(el('tr', { class: 'interval', 'data-interval': iv.name },
+      el('th', { scope: 'row', text: iv.name }),
+      el('td', { class: 'num' }, '[', numCell(lo), ', ', numCell(hi), ']'),
+      el('td', {}, labelPill(iv.label)), el('td', { text: iv.unit || '' })));
+  }
   for (const s of scalars) {
     if (used.has(s.name)) continue;
-    const m = END.exec(s.name);
-    let lo = null, hi = null;
-    if (m) {
-      const base = m[1], end = m[2].toLowerCase();
-      const partner = { lower: 'upper', upper: 'lower', low: 'high', high: 'low', lo: 'hi', hi: 'lo' }[end];
-      const other = [...byName.keys()].find((n) => n !== s.name && END.test(n) &&
-        END.exec(n)[1] === base && END.exec(n)[2].toLowerCase() === partner);
-      if (other) {
-        const o = byName.get(other);
-        [lo, hi] = ['lower', 'low', 'lo'].includes(end) ? [s, o] : [o, s];
-        if (lo.label === hi.label) {
-          used.add(lo.name); used.add(hi.name);
-          tb.append(el('tr', { class: 'interval' },
-            el('th', { scope: 'row', text: base || 'interval' }),
-            el('td', { class: 'num' }, '[', numCell(lo), ', ', numCell(hi), ']'),
-            el('td', {}, labelPill(lo.label)), el('td', { text: lo.unit || '' })));
-          continue;
-        }
-      }
-    }
-    used.add(s.name);
     tb.append(el('tr', {}, el('th', { scope: 'row', text: s.name }), el('td', { class: 'num' }, numCell(s)),
       el('td', {}, labelPill(s.label)), el('td', { text: s.unit || '' })));
   }
