@@ -7,6 +7,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"gapbook/cmd/gapbook/batch"
 	"io/fs"
 	"math"
 	"net/http/httptest"
@@ -281,13 +282,13 @@ func readFile(t testing.TB, name string) []byte {
 }
 
 // native evaluates a file as `gapbook run --json` does.
-func native(t testing.TB, path string) *notebook.BatchOutput {
+func native(t testing.TB, path string) *batch.Output {
 	t.Helper()
 	var out bytes.Buffer
-	if _, _, err := notebook.RunFile(context.Background(), path, notebook.BatchOptions{JSON: true, Stdout: &out}); err != nil {
+	if _, _, err := batch.Run(context.Background(), path, batch.Options{JSON: true, Stdout: &out}); err != nil {
 		t.Fatal(err)
 	}
-	var b notebook.BatchOutput
+	var b batch.Output
 	if err := json.Unmarshal(out.Bytes(), &b); err != nil {
 		t.Fatal(err)
 	}

@@ -6,6 +6,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"gapbook/cmd/gapbook/batch"
 	"net"
 	"net/http"
 	"os"
@@ -53,7 +54,7 @@ func main() {
 // unreadable file.
 func run(args []string) int {
 	var file string
-	o := notebook.BatchOptions{Stdout: os.Stdout, Stderr: os.Stderr}
+	o := batch.Options{Stdout: os.Stdout, Stderr: os.Stderr}
 	for i := 0; i < len(args); i++ {
 		switch a := args[i]; a {
 		case "--json", "-json":
@@ -86,7 +87,7 @@ func run(args []string) int {
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
-	_, ok, err := notebook.RunFile(ctx, file, o)
+	_, ok, err := batch.Run(ctx, file, o)
 	if err != nil {
 		fmt.Fprintf(os.Stderr, "gapbook run: %v\n", err)
 		return 2

@@ -1,9 +1,10 @@
-package notebook
+package batch
 
 import (
 	"bytes"
 	"context"
 	"encoding/csv"
+	"gapbook/notebook"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -11,9 +12,9 @@ import (
 	"testing"
 )
 
-// RunFile with Export writes one file per table, plot and field of every
+// Run with Export writes one file per table, plot and field of every
 // ok cell, and the CSV holds the same numbers as the results.
-func TestRunFileExport(t *testing.T) {
+func TestRunExport(t *testing.T) {
 	dir := t.TempDir()
 	path := filepath.Join(dir, "e.gapbook")
 	doc := `{"gapbook":1,"title":"export","cells":[
@@ -27,7 +28,7 @@ func TestRunFileExport(t *testing.T) {
 	}
 	out := filepath.Join(dir, "out")
 	var log bytes.Buffer
-	_, ok, err := RunFile(context.Background(), path, BatchOptions{Export: out, Stderr: &log})
+	_, ok, err := Run(context.Background(), path, Options{Export: out, Stderr: &log})
 	if err != nil || ok {
 		t.Fatalf("ok=%v (want false: cell bad fails) err=%v", ok, err)
 	}
@@ -59,10 +60,20 @@ func TestRunFileExport(t *testing.T) {
 		t.Fatalf("csv %v %v", recs, err)
 	}
 	last, _ := strconv.ParseFloat(recs[len(recs)-1][4], 64)
-	ev := evalCells(t, kc("p", "problem", map[string]any{"domain": "rectangle", "p": 2}),
-		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}), kc("s", "solve", map[string]any{"mesh": "m"}))
-	if want := scalar(t, okCell(t, ev, "s"), "energy").Value; last != want {
-		t.Errorf("CSV energy %v, result %v", last, want)
+	nb, err := notebook.Load([]byte(`{"gapbook":2,"cells":[
+	 {"id":"p","kind":"problem","inputs":{"domain":"rectangle","p":2}},
+	 {"id":"m","kind":"mesh","inputs":{"problem":"p","cells":4}},
+	 {"id":"s","kind":"solve","inputs":{"mesh":"m"}}]}`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	ev, err := notebook.NewEngine().Evaluate(context.Background(), nb, notebook.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, ok := ev.Cell("s").Results.Scalar("energy")
+	if !ok || last != want.Value {
+		t.Errorf("CSV energy %v, result %v", last, want.Value)
 	}
 }
 

@@ -1,4 +1,7 @@
-package notebook
+// Package batch is the headless evaluation behind `gapbook run`: load a
+// study, evaluate it with one progress line per cell, print the results as
+// JSON, write a report and export tables, plots and fields as files.
+package batch
 
 import (
 	"context"
@@ -8,53 +11,55 @@ import (
 	"math"
 	"os"
 	"time"
+
+	"gapbook/notebook"
 )
 
-// BatchOptions steer RunFile, the headless evaluation behind `gapbook run`.
-type BatchOptions struct {
+// Options steer Run, the headless evaluation behind `gapbook run`.
+type Options struct {
 	// JSON prints one object with a cells array to Stdout.
 	JSON bool
 	// Report, when set, is the path of an HTML report to write.
 	Report string
 	// Export, when set, is a directory that receives every table as CSV,
-	// plot as SVG and field as .vtu (see ExportResults).
+	// plot as SVG and field as .vtu (see Export).
 	Export string
 	// Stdout receives the JSON; Stderr one progress line per cell.
 	Stdout, Stderr io.Writer
 }
 
-// BatchCell is one cell in the JSON printed by RunFile.
-type BatchCell struct {
-	ID     string                `json:"id"`
-	Kind   string                `json:"kind"`
-	Status Status                `json:"status"`
-	Error  string                `json:"error"`
-	Values map[string]BatchValue `json:"values"`
+// Cell is one cell in the JSON printed by Run.
+type Cell struct {
+	ID     string           `json:"id"`
+	Kind   string           `json:"kind"`
+	Status notebook.Status  `json:"status"`
+	Error  string           `json:"error"`
+	Values map[string]Value `json:"values"`
 	// Intervals maps each interval's name to its ends (omitted when the
 	// cell has none).
-	Intervals map[string]BatchInterval `json:"intervals,omitempty"`
-	Digest    string                   `json:"digest,omitempty"`
+	Intervals map[string]Interval `json:"intervals,omitempty"`
+	Digest    string              `json:"digest,omitempty"`
 	// Reproduced is "yes" or "no" when the file had results for the same
 	// inputs, else empty.
 	Reproduced string `json:"reproduced,omitempty"`
 }
 
-// BatchValue is one named scalar in the JSON; Value is null when it is
+// Value is one named scalar in the JSON; Value is null when it is
 // not a finite number.
-type BatchValue struct {
-	Value *float64 `json:"value"`
-	Label Label    `json:"label"`
-	Unit  string   `json:"unit,omitempty"`
+type Value struct {
+	Value *float64       `json:"value"`
+	Label notebook.Label `json:"label"`
+	Unit  string         `json:"unit,omitempty"`
 }
 
-// BatchInterval is one interval in the JSON: Lower and Upper are null
+// Interval is one interval in the JSON: Lower and Upper are null
 // when not finite; Ends names the scalars in values that hold them.
-type BatchInterval struct {
-	Lower *float64  `json:"lower"`
-	Upper *float64  `json:"upper"`
-	Label Label     `json:"label"`
-	Unit  string    `json:"unit,omitempty"`
-	Ends  [2]string `json:"ends"`
+type Interval struct {
+	Lower *float64       `json:"lower"`
+	Upper *float64       `json:"upper"`
+	Label notebook.Label `json:"label"`
+	Unit  string         `json:"unit,omitempty"`
+	Ends  [2]string      `json:"ends"`
 }
 
 func finite(v float64) *float64 {
@@ -64,18 +69,18 @@ func finite(v float64) *float64 {
 	return &v
 }
 
-// BatchOutput is the object printed with --json.
-type BatchOutput struct {
-	Title string      `json:"title"`
-	OK    bool        `json:"ok"`
-	Cells []BatchCell `json:"cells"`
+// Output is the object printed with --json.
+type Output struct {
+	Title string `json:"title"`
+	OK    bool   `json:"ok"`
+	Cells []Cell `json:"cells"`
 }
 
-// RunFile loads the notebook at path, evaluates it with one progress line
+// Run loads the notebook at path, evaluates it with one progress line
 // per cell, prints JSON and writes a report as asked. It returns the
 // output and whether every cell is ok; err is for a file that cannot be
 // read, loaded or written.
-func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bool, error) {
+func Run(ctx context.Context, path string, o Options) (*Output, bool, error) {
 	if o.Stderr == nil {
 		o.Stderr = io.Discard
 	}
@@ -86,7 +91,7 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 	if err != nil {
 		return nil, false, err
 	}
-	nb, err := Load(data)
+	nb, err := notebook.Load(data)
 	if nb == nil {
 		return nil, false, fmt.Errorf("%s:\n%v", path, err)
 	}
@@ -99,7 +104,7 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 	}
 	start := time.Now()
 	cellStart := start
-	ev, err := NewEngine().Evaluate(ctx, nb, Options{Progress: func(p Progress) {
+	ev, err := notebook.NewEngine().Evaluate(ctx, nb, notebook.Options{Progress: func(p notebook.Progress) {
 		if !p.Done {
 			if p.Fraction == 0 {
 				cellStart = time.Now()
@@ -121,7 +126,7 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 	if err != nil {
 		return nil, false, err
 	}
-	out := batchOutput(nb, ev)
+	out := output(nb, ev)
 	if o.JSON {
 		b, err := json.MarshalIndent(out, "", "  ")
 		if err != nil {
@@ -132,12 +137,12 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 		}
 	}
 	if o.Report != "" {
-		if err := os.WriteFile(o.Report, Report(nb, ev), 0o644); err != nil {
+		if err := os.WriteFile(o.Report, notebook.Report(nb, ev), 0o644); err != nil {
 			return nil, false, err
 		}
 	}
 	if o.Export != "" {
-		paths, err := ExportResults(o.Export, ev)
+		paths, err := Export(o.Export, ev)
 		if err != nil {
 			return nil, false, err
 		}
@@ -147,19 +152,19 @@ func RunFile(ctx context.Context, path string, o BatchOptions) (*BatchOutput, bo
 	return out, out.OK, nil
 }
 
-func batchOutput(nb *Notebook, ev *Evaluation) *BatchOutput {
-	out := &BatchOutput{Title: nb.Title, OK: true, Cells: []BatchCell{}}
+func output(nb *notebook.Notebook, ev *notebook.Evaluation) *Output {
+	out := &Output{Title: nb.Title, OK: true, Cells: []Cell{}}
 	for _, o := range ev.Cells {
-		bc := BatchCell{ID: o.ID, Kind: o.Kind, Status: o.Status, Values: map[string]BatchValue{}, Digest: o.Digest, Reproduced: o.Reproduced}
+		bc := Cell{ID: o.ID, Kind: o.Kind, Status: o.Status, Values: map[string]Value{}, Digest: o.Digest, Reproduced: o.Reproduced}
 		if o.Err != nil {
 			bc.Error = o.Err.Error()
 		}
-		if o.Status != StatusOK {
+		if o.Status != notebook.StatusOK {
 			out.OK = false
 		}
 		if o.Results != nil {
 			for _, s := range o.Results.Scalars {
-				bv := BatchValue{Label: s.Label, Unit: s.Unit}
+				bv := Value{Label: s.Label, Unit: s.Unit}
 				if !math.IsNaN(s.Value) && !math.IsInf(s.Value, 0) {
 					v := s.Value
 					bv.Value = &v
@@ -168,9 +173,9 @@ func batchOutput(nb *Notebook, ev *Evaluation) *BatchOutput {
 			}
 			for _, iv := range o.Results.Intervals {
 				if bc.Intervals == nil {
-					bc.Intervals = map[string]BatchInterval{}
+					bc.Intervals = map[string]Interval{}
 				}
-				bc.Intervals[iv.Name] = BatchInterval{Lower: finite(iv.Lower), Upper: finite(iv.Upper), Label: iv.Label, Unit: iv.Unit, Ends: iv.Ends}
+				bc.Intervals[iv.Name] = Interval{Lower: finite(iv.Lower), Upper: finite(iv.Upper), Label: iv.Label, Unit: iv.Unit, Ends: iv.Ends}
 			}
 		}
 		out.Cells = append(out.Cells, bc)

@@ -1,4 +1,4 @@
-package notebook
+package batch
 
 import (
 	"bytes"
@@ -10,10 +10,10 @@ import (
 	"testing"
 )
 
-// Every example runs through RunFile, the code path of `gapbook run`, and
+// Every example runs through Run, the code path of `gapbook run`, and
 // every cell must be ok.
 func TestExamplesRun(t *testing.T) {
-	files, err := filepath.Glob("../examples/*.gapbook")
+	files, err := filepath.Glob("../../../examples/*.gapbook")
 	if err != nil || len(files) == 0 {
 		t.Fatalf("no examples found: %v", err)
 	}
@@ -21,7 +21,7 @@ func TestExamplesRun(t *testing.T) {
 		t.Run(filepath.Base(f), func(t *testing.T) {
 			var out, log bytes.Buffer
 			report := filepath.Join(t.TempDir(), "r.html")
-			res, ok, err := RunFile(context.Background(), f, BatchOptions{JSON: true, Report: report, Stdout: &out, Stderr: &log})
+			res, ok, err := Run(context.Background(), f, Options{JSON: true, Report: report, Stdout: &out, Stderr: &log})
 			if err != nil || !ok {
 				t.Fatalf("ok=%v err=%v\n%s", ok, err, log.String())
 			}
@@ -56,13 +56,18 @@ func TestExamplesRun(t *testing.T) {
 	}
 }
 
-func TestRunFileJSONForFailures(t *testing.T) {
+// A failing cell is reported in the JSON with its message, and the cells
+// that need it say so; the run is not ok.
+func TestRunJSONForFailures(t *testing.T) {
 	dir := t.TempDir()
 	path := filepath.Join(dir, "f.gapbook")
-	doc := `{"gapbook":1,"title":"f","cells":[{"id":"a","kind":"scale","inputs":{"a":2.5}},{"id":"b","kind":"scale","inputs":{"from":"a","mode":"fail"}},{"id":"c","kind":"scale","inputs":{"from":"b"}}]}`
+	doc := `{"gapbook":2,"title":"f","cells":[
+	 {"id":"a","kind":"problem","inputs":{"domain":"interval","p":2.5}},
+	 {"id":"b","kind":"mesh","inputs":{"problem":"a","cells":4,"h":-1}},
+	 {"id":"c","kind":"solve","inputs":{"mesh":"b"}}]}`
 	os.WriteFile(path, []byte(doc), 0o644)
 	var out bytes.Buffer
-	res, ok, err := RunFile(context.Background(), path, BatchOptions{JSON: true, Stdout: &out})
+	res, ok, err := Run(context.Background(), path, Options{JSON: true, Stdout: &out})
 	if err != nil || ok {
 		t.Fatalf("ok=%v err=%v", ok, err)
 	}
@@ -72,12 +77,15 @@ func TestRunFileJSONForFailures(t *testing.T) {
 	}
 	cells := parsed["cells"].([]any)
 	a := cells[0].(map[string]any)
-	y := a["values"].(map[string]any)["y"].(map[string]any)
-	if y["value"].(float64) != 2.5 || y["label"] != "estimate" || a["status"] != "ok" {
+	p := a["values"].(map[string]any)["p"].(map[string]any)
+	if p["value"].(float64) != 2.5 || p["label"] != "reference" || a["status"] != "ok" {
 		t.Errorf("cell a: %v", a)
 	}
+	if b := cells[1].(map[string]any); b["status"] != "error" || !strings.Contains(b["error"].(string), "cell b: input h:") {
+		t.Errorf("cell b: %v", b)
+	}
 	c := cells[2].(map[string]any)
-	if c["status"] != "error" || c["error"] != "cell c: input from: needs cell b, which failed" {
+	if c["status"] != "error" || c["error"] != "cell c: input mesh: needs cell b, which failed" {
 		t.Errorf("cell c: %v", c)
 	}
 	if res.OK {

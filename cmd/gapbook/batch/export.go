@@ -1,4 +1,4 @@
-package notebook
+package batch
 
 import (
 	"bytes"
@@ -6,13 +6,15 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+
+	"gapbook/notebook"
 )
 
-// ExportResults writes the results of every ok cell of ev into dir
+// Export writes the results of every ok cell of ev into dir
 // (created if needed): each table as CSV, each plot as SVG and each field
 // as a VTK unstructured grid, named "<cell>-<result>.csv|svg|vtu". It
 // returns the paths written, in cell order.
-func ExportResults(dir string, ev *Evaluation) ([]string, error) {
+func Export(dir string, ev *notebook.Evaluation) ([]string, error) {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return nil, fmt.Errorf("export: %w", err)
 	}
@@ -35,13 +37,13 @@ func ExportResults(dir string, ev *Evaluation) ([]string, error) {
 		return nil
 	}
 	for _, o := range ev.Cells {
-		if o.Status != StatusOK || o.Results == nil {
+		if o.Status != notebook.StatusOK || o.Results == nil {
 			continue
 		}
 		r := o.Results
 		for _, t := range r.Tables {
 			var b bytes.Buffer
-			if err := WriteCSV(&b, t); err != nil {
+			if err := notebook.WriteCSV(&b, t); err != nil {
 				return paths, fmt.Errorf("export: cell %s, table %s: %w", o.ID, t.Name, err)
 			}
 			if err := write(o.ID, t.Name, "csv", b.Bytes()); err != nil {
@@ -49,14 +51,14 @@ func ExportResults(dir string, ev *Evaluation) ([]string, error) {
 			}
 		}
 		for _, p := range r.Plots {
-			svg := `<?xml version="1.0" encoding="UTF-8"?>` + "\n" + PlotSVG(p) + "\n"
+			svg := `<?xml version="1.0" encoding="UTF-8"?>` + "\n" + notebook.PlotSVG(p) + "\n"
 			if err := write(o.ID, p.Name, "svg", []byte(svg)); err != nil {
 				return paths, err
 			}
 		}
 		for _, f := range r.Fields {
 			var b bytes.Buffer
-			if err := WriteVTU(&b, f); err != nil {
+			if err := notebook.WriteVTU(&b, f); err != nil {
 				return paths, fmt.Errorf("export: cell %s: %w", o.ID, err)
 			}
 			if err := write(o.ID, f.Name, "vtu", b.Bytes()); err != nil {
