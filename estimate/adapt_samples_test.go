@@ -2,7 +2,6 @@ package estimate
 
 import (
 	"context"
-	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -10,6 +9,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // TestAdaptSamples: with AdaptOptions.Samples the bounds of every mesh read

@@ -3,13 +3,13 @@ package estimate
 import (
 	"context"
 	"errors"
-	"gapbook/problem"
 	"math"
 	"testing"
 
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // cornerU is u = r^{2/3} sin(2θ/3) on the L-shape, θ ∈ [0, 3π/2]: harmonic,

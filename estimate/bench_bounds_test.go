@@ -3,7 +3,6 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"testing"
 	"time"
@@ -12,6 +11,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // benchBoundsProblem is the smooth manufactured problem of the nonlinear

@@ -3,11 +3,11 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"testing"
 
 	"gapbook/fem"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // BenchmarkEvaluateTerms times EvaluateTerms alone (averaged and RT0

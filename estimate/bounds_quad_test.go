@@ -3,7 +3,6 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"math/rand/v2"
 	"testing"
@@ -12,6 +11,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // TestPowerGap checks the closed form and series of the power gap against

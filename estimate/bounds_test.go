@@ -3,7 +3,6 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -11,6 +10,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // fluxBuilder builds a flux for the invariant suite; the equilibrated and

@@ -1,12 +1,12 @@
 package estimate
 
 import (
-	"gapbook/problem"
 	"testing"
 
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // The Dunavant rules of degrees 3 and 7 have a negative weight (Dunavant

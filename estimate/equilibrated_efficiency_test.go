@@ -2,13 +2,13 @@ package estimate
 
 import (
 	"context"
-	"gapbook/problem"
 	"testing"
 
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // effRow is one measured row of TestEquilibratedDiscreteEfficiency.

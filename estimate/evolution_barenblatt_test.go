@@ -3,7 +3,6 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -11,6 +10,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // barenblatt is the source-type solution of u_t = div(|∇u|^{p−2}∇u) in R^n,

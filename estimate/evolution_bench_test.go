@@ -3,7 +3,6 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"testing"
 	"time"
 
@@ -11,6 +10,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // BenchmarkEvolution times implicit Euler on the unit square (n × n

@@ -3,7 +3,6 @@ package estimate
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"math/rand/v2"
 	"strings"
@@ -13,6 +12,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // parCase is one evolution problem with a known solution. Its boundary

@@ -2,11 +2,11 @@ package estimate
 
 import (
 	"context"
-	"gapbook/problem"
 	"testing"
 
 	"gapbook/convex"
 	"gapbook/fem"
+	"gapbook/problem"
 )
 
 // TestMinimisedMajorant checks Minimise on the manufactured exact solutions

@@ -2,7 +2,6 @@ package estimate
 
 import (
 	"context"
-	"gapbook/problem"
 	"math"
 	"strings"
 	"testing"
@@ -11,6 +10,7 @@ import (
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/problem"
 )
 
 // TestSamplesShared: an RT0 or RT1 flux projected from shared samples and

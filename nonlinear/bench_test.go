@@ -3,7 +3,6 @@ package nonlinear
 import (
 	"context"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"runtime"
 	"testing"
@@ -12,6 +11,7 @@ import (
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // benchProblem is the smooth manufactured problem of the benchmarks:

@@ -2,12 +2,12 @@ package nonlinear
 
 import (
 	"context"
-	"gapbook/problem"
 	"math"
 	"testing"
 
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // TestEvolveLoadSamples checks that each step evaluates f once per point of

@@ -3,12 +3,12 @@ package nonlinear
 import (
 	"context"
 	"errors"
-	"gapbook/problem"
 	"math"
 	"testing"
 
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 // TestEvolveHeat checks implicit Euler for the heat equation against the

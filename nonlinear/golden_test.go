@@ -4,11 +4,11 @@ import (
 	"context"
 	"flag"
 	"fmt"
-	"gapbook/problem"
 	"testing"
 
 	"gapbook/internal/golden"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 var update = flag.Bool("update", false, "rewrite testdata/golden.json from this platform")

@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"testing"
 
@@ -13,6 +12,7 @@ import (
 	"gapbook/convex"
 	"gapbook/fem"
 	"gapbook/mesh"
+	"gapbook/problem"
 )
 
 func power(t *testing.T, a float64) convex.Potential {

@@ -175,7 +175,7 @@ func (e *Engine) Evaluate(ctx context.Context, nb *Notebook, o Options) (*Evalua
 	}
 	var need map[string]bool
 	if len(o.Only) > 0 {
-		need = nb.closure(o.Only)
+		need = nb.Closure(o.Only)
 	}
 	ev := &Evaluation{Override: o.Override}
 	done := map[string]*Outcome{}
@@ -217,7 +217,7 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 	}
 	k, ok := Lookup(c.Kind)
 	if !ok {
-		fail("", fmt.Sprintf("unknown kind %q; known kinds: %s", clip(c.Kind, 40), strings.Join(Kinds(), ", ")))
+		fail("", fmt.Sprintf("unknown kind %q; known kinds: %s", Clip(c.Kind, 40), strings.Join(Kinds(), ", ")))
 		return
 	}
 	raw := c.Inputs
@@ -453,8 +453,8 @@ func (nb *Notebook) deps(i int) []string {
 	return out
 }
 
-// closure returns ids and every cell they need, directly or not.
-func (nb *Notebook) closure(ids []string) map[string]bool {
+// Closure returns ids and every cell they need, directly or not.
+func (nb *Notebook) Closure(ids []string) map[string]bool {
 	need := map[string]bool{}
 	for _, id := range ids {
 		need[id] = true
@@ -507,7 +507,7 @@ func (nb *Notebook) States() []*Outcome {
 		done[c.ID] = out
 		k, ok := Lookup(c.Kind)
 		if !ok {
-			out.Status, out.Err = StatusError, &CellError{Cell: c.ID, Msg: fmt.Sprintf("unknown kind %q", clip(c.Kind, 40))}
+			out.Status, out.Err = StatusError, &CellError{Cell: c.ID, Msg: fmt.Sprintf("unknown kind %q", Clip(c.Kind, 40))}
 			continue
 		}
 		vals, errs := ParseInputs(k, c.Inputs)

@@ -142,8 +142,8 @@ type Input struct {
 	Check func(v any) error
 }
 
-// want says in words what the input accepts.
-func (in Input) want() string {
+// Want says in words what the input accepts.
+func (in Input) Want() string {
 	w := typeWords[in.Type]
 	if in.Type == Choice {
 		return w + " " + strings.Join(in.Choices, ", ")
@@ -217,7 +217,7 @@ func ParseInputs(k Kind, raw map[string]json.RawMessage) (Values, []*FieldError)
 				vals[in.Name] = in.Default
 			case in.Optional:
 			default:
-				errs = append(errs, &FieldError{in.Name, "missing; want " + in.want()})
+				errs = append(errs, &FieldError{in.Name, "missing; want " + in.Want()})
 			}
 			continue
 		}
@@ -232,12 +232,12 @@ func ParseInputs(k Kind, raw map[string]json.RawMessage) (Values, []*FieldError)
 }
 
 func parseValue(in Input, r json.RawMessage) (any, error) {
-	bad := func() error { return fmt.Errorf("want %s, got %s", in.want(), clip(string(r), 40)) }
+	bad := func() error { return fmt.Errorf("want %s, got %s", in.Want(), Clip(string(r), 40)) }
 	var v any
 	switch in.Type {
 	case Number, Integer:
 		f, err := parseNumber(r)
-		if err != nil || !in.inRange(f) {
+		if err != nil || !in.InRange(f) {
 			return nil, bad()
 		}
 		if in.Type == Integer {
@@ -263,7 +263,7 @@ func parseValue(in Input, r json.RawMessage) (any, error) {
 		case in.Type == Choice && !slices.Contains(in.Choices, s):
 			return nil, bad()
 		case in.Type == Ref && s != "" && !ValidID(s):
-			return nil, fmt.Errorf("want the id of an earlier cell, got %s; ids use letters, digits, - and _", clip(string(r), 40))
+			return nil, fmt.Errorf("want the id of an earlier cell, got %s; ids use letters, digits, - and _", Clip(string(r), 40))
 		}
 		v = s
 	case Bool:
@@ -280,8 +280,8 @@ func parseValue(in Input, r json.RawMessage) (any, error) {
 		fs := make([]float64, len(raws))
 		for i, e := range raws {
 			f, err := parseNumber(e)
-			if err != nil || !in.inRange(f) {
-				return nil, fmt.Errorf("element %d: want %s, got %s", i, in.want(), clip(string(e), 40))
+			if err != nil || !in.InRange(f) {
+				return nil, fmt.Errorf("element %d: want %s, got %s", i, in.Want(), Clip(string(e), 40))
 			}
 			fs[i] = f
 		}
@@ -315,7 +315,8 @@ func parseNumber(r json.RawMessage) (float64, error) {
 	return f, nil
 }
 
-func (in Input) inRange(f float64) bool {
+// InRange reports whether f lies within the input's limits.
+func (in Input) InRange(f float64) bool {
 	if in.Low.Set && (f < in.Low.Value || in.Low.Strict && f == in.Low.Value) {
 		return false
 	}
@@ -359,6 +360,10 @@ func (c *Context) Context() context.Context { return c.ctx }
 // Err is non-nil once the evaluation is cancelled; long loops check it and
 // return it.
 func (c *Context) Err() error { return c.ctx.Err() }
+
+// Notebook returns the notebook being evaluated (a sweep reads the chain
+// of cells it reruns).
+func (c *Context) Notebook() *Notebook { return c.nb }
 
 // Cell returns the id of the cell being evaluated.
 func (c *Context) Cell() string { return c.cell }

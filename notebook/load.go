@@ -77,7 +77,7 @@ func migrate(doc map[string]any) error {
 	n, ok := raw.(json.Number)
 	v, err := strconv.Atoi(string(n))
 	if !ok || err != nil || v < 0 {
-		return fmt.Errorf("want a format version (a whole number ≥ 0), got %s", clip(jsonText(raw), 40))
+		return fmt.Errorf("want a format version (a whole number ≥ 0), got %s", Clip(jsonText(raw), 40))
 	}
 	if v > FormatVersion {
 		return fmt.Errorf("format version %d is newer than this gapbook reads (%d); update gapbook", v, FormatVersion)
@@ -139,7 +139,7 @@ func decode(doc map[string]any) (*Notebook, error) {
 		case !ok:
 			hardf(path+".id", "want a text id, got %s", jsonType(m["id"]))
 		case !ValidID(id):
-			hardf(path+".id", "%s is not a valid id; use 1 to %d letters, digits, - and _", strconv.Quote(clip(id, 40)), MaxIDBytes)
+			hardf(path+".id", "%s is not a valid id; use 1 to %d letters, digits, - and _", strconv.Quote(Clip(id, 40)), MaxIDBytes)
 		default:
 			if j, dup := index[id]; dup {
 				hardf(path+".id", "%q is already the id of cells[%d]; ids must be unique", id, j)
@@ -197,7 +197,7 @@ func (nb *Notebook) Check() []Diagnostic {
 		path := fmt.Sprintf("cells[%d]", i)
 		k, ok := Lookup(c.Kind)
 		if !ok {
-			ps = append(ps, Diagnostic{path + ".kind", fmt.Sprintf("unknown kind %q; known kinds: %s", clip(c.Kind, 40), strings.Join(Kinds(), ", "))})
+			ps = append(ps, Diagnostic{path + ".kind", fmt.Sprintf("unknown kind %q; known kinds: %s", Clip(c.Kind, 40), strings.Join(Kinds(), ", "))})
 			continue
 		}
 		vals, errs := ParseInputs(k, c.Inputs)
@@ -243,7 +243,7 @@ func decodeSaved(v any, path string) (*Saved, []Diagnostic) {
 		}
 		str, ok := h.(string)
 		if !ok || !isHex64(str) {
-			ps = append(ps, Diagnostic{path + "." + k, "want 64 hexadecimal digits (SHA-256), got " + clip(jsonText(h), 40)})
+			ps = append(ps, Diagnostic{path + "." + k, "want 64 hexadecimal digits (SHA-256), got " + Clip(jsonText(h), 40)})
 		}
 		if k == "hash" {
 			s.Hash = str
@@ -318,7 +318,7 @@ func Save(nb *Notebook) ([]byte, error) {
 	cells := make([]any, len(nb.Cells))
 	for i, c := range nb.Cells {
 		if !ValidID(c.ID) {
-			ps = append(ps, Diagnostic{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is not a valid id; use 1 to %d letters, digits, - and _", clip(c.ID, 40), MaxIDBytes)})
+			ps = append(ps, Diagnostic{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is not a valid id; use 1 to %d letters, digits, - and _", Clip(c.ID, 40), MaxIDBytes)})
 		} else if j, dup := seen[c.ID]; dup {
 			ps = append(ps, Diagnostic{fmt.Sprintf("cells[%d].id", i), fmt.Sprintf("%q is already the id of cells[%d]; ids must be unique", c.ID, j)})
 		}
@@ -451,9 +451,9 @@ func jsonType(v any) string {
 	case bool:
 		return strconv.FormatBool(x)
 	case json.Number:
-		return "the number " + clip(string(x), 40)
+		return "the number " + Clip(string(x), 40)
 	case string:
-		return "the text " + strconv.Quote(clip(x, 40))
+		return "the text " + strconv.Quote(Clip(x, 40))
 	case []any:
 		return "a list"
 	case map[string]any:
@@ -525,7 +525,7 @@ func joinPath(path, key string) string {
 		}
 	}
 	if !plain {
-		return path + "[" + strconv.Quote(clip(key, 40)) + "]"
+		return path + "[" + strconv.Quote(Clip(key, 40)) + "]"
 	}
 	if path == "" {
 		return key
@@ -555,7 +555,7 @@ func checkDuplicateKeys(data []byte) *Diagnostic {
 		if top != nil && top.obj && top.expect {
 			if k, ok := t.(string); ok {
 				if top.keys[k] {
-					return &Diagnostic{"", fmt.Sprintf("field %q appears twice in one object at %s; keep one", clip(k, 40), lineCol(data, d.InputOffset()))}
+					return &Diagnostic{"", fmt.Sprintf("field %q appears twice in one object at %s; keep one", Clip(k, 40), lineCol(data, d.InputOffset()))}
 				}
 				top.keys[k] = true
 				top.expect = false

@@ -53,7 +53,7 @@ func migrateV1(doc map[string]any) error {
 		}
 		if len(notes) > 0 {
 			id, _ := cell["id"].(string)
-			addNote(doc, fmt.Sprintf("cells[%d] (%s, %s): %s", i, clip(id, 64), clip(kind, 40), strings.Join(notes, "; ")))
+			addNote(doc, fmt.Sprintf("cells[%d] (%s, %s): %s", i, Clip(id, 64), Clip(kind, 40), strings.Join(notes, "; ")))
 		}
 	}
 	hist, _ := doc["history"].([]any)

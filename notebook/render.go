@@ -122,7 +122,7 @@ func RenderInputs(c *Cell) string {
 	var b strings.Builder
 	b.WriteString(`<dl class="inputs">`)
 	for _, n := range names {
-		b.WriteString(`<dt>` + esc(n) + `</dt><dd><code>` + esc(clip(string(c.Inputs[n]), 400)) + `</code></dd>`)
+		b.WriteString(`<dt>` + esc(n) + `</dt><dd><code>` + esc(Clip(string(c.Inputs[n]), 400)) + `</code></dd>`)
 	}
 	b.WriteString(`</dl>`)
 	return b.String()
@@ -178,7 +178,7 @@ func classWord(s string) string {
 			return r
 		}
 		return '-'
-	}, clip(s, 40))
+	}, Clip(s, 40))
 }
 
 // Caution is the text every report carries near the top.

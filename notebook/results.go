@@ -129,7 +129,7 @@ type Table struct {
 
 // Column returns the values of the column called name, or nil.
 func (t *Table) Column(name string) []float64 {
-	j := t.columnIndex(name)
+	j := t.ColumnIndex(name)
 	if j < 0 {
 		return nil
 	}
@@ -140,7 +140,8 @@ func (t *Table) Column(name string) []float64 {
 	return out
 }
 
-func (t *Table) columnIndex(name string) int {
+// ColumnIndex returns the index of the column called name, or −1.
+func (t *Table) ColumnIndex(name string) int {
 	for j, c := range t.Columns {
 		if c.Name == name {
 			return j
@@ -515,7 +516,7 @@ func (v *num) UnmarshalJSON(b []byte) error {
 	}
 	f, err := strconv.ParseFloat(string(b), 64)
 	if err != nil {
-		return fmt.Errorf("want a number, \"NaN\", \"Inf\" or \"-Inf\", got %s", clip(string(b), 40))
+		return fmt.Errorf("want a number, \"NaN\", \"Inf\" or \"-Inf\", got %s", Clip(string(b), 40))
 	}
 	*v = num(f)
 	return nil
@@ -686,7 +687,8 @@ func strictUnmarshal(b []byte, v any) error {
 	return d.Decode(v)
 }
 
-func clip(s string, n int) string {
+// Clip shortens s to at most n characters for a message, marking the cut.
+func Clip(s string, n int) string {
 	r := []rune(s)
 	if len(r) <= n {
 		return s

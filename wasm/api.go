@@ -5,13 +5,14 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"gapbook/notebook/markdown"
 	"math"
 	"strconv"
 	"strings"
 	"time"
 
 	"gapbook/notebook"
+	_ "gapbook/notebook/kinds" // registers the cell kinds
+	"gapbook/notebook/markdown"
 )
 
 // request is one message from the page.

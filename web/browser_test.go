@@ -7,7 +7,6 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
-	"gapbook/cmd/gapbook/batch"
 	"io/fs"
 	"math"
 	"net/http/httptest"
@@ -25,6 +24,7 @@ import (
 	"github.com/chromedp/cdproto/page"
 	"github.com/chromedp/chromedp"
 
+	"gapbook/cmd/gapbook/batch"
 	"gapbook/notebook"
 	"gapbook/web"
 	_ "gapbook/web/testkinds"

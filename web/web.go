@@ -25,6 +25,7 @@ import (
 	"sync"
 
 	"gapbook/notebook"
+	_ "gapbook/notebook/kinds" // registers the cell kinds
 )
 
 //go:embed static

@@ -6,7 +6,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"gapbook/cmd/gapbook/batch"
 	"net"
 	"net/http"
 	"os"
@@ -14,6 +13,7 @@ import (
 	"path/filepath"
 	"strings"
 
+	"gapbook/cmd/gapbook/batch"
 	"gapbook/examples"
 	"gapbook/notebook"
 	"gapbook/web"

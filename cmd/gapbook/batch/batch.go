@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"gapbook/notebook"
+	_ "gapbook/notebook/kinds" // registers the cell kinds
 )
 
 // Options steer Run, the headless evaluation behind `gapbook run`.

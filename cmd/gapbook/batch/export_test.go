@@ -4,12 +4,13 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
-	"gapbook/notebook"
 	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // Run with Export writes one file per table, plot and field of every

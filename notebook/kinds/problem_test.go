@@ -1,4 +1,4 @@
-package notebook
+package kinds
 
 import (
 	"context"
@@ -7,19 +7,21 @@ import (
 	"math"
 	"strings"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // evalCells evaluates a notebook given as a list of cells {id, kind,
 // inputs} and returns the evaluation. Loading problems are ignored here:
 // each cell reports its own.
-func evalCells(t *testing.T, cells ...string) *Evaluation {
+func evalCells(t *testing.T, cells ...string) *notebook.Evaluation {
 	t.Helper()
-	doc := `{"gapbook":1,"title":"test","cells":[` + strings.Join(cells, ",") + `]}`
-	nb, _ := Load([]byte(doc))
+	doc := `{"gapbook":2,"title":"test","cells":[` + strings.Join(cells, ",") + `]}`
+	nb, _ := notebook.Load([]byte(doc))
 	if nb == nil {
 		t.Fatalf("notebook does not load:\n%s", doc)
 	}
-	ev, err := NewEngine().Evaluate(context.Background(), nb, Options{})
+	ev, err := notebook.NewEngine().Evaluate(context.Background(), nb, notebook.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -33,16 +35,16 @@ func kc(id, kind string, inputs map[string]any) string {
 }
 
 // okCell returns the results of cell id and fails unless it is ok.
-func okCell(t *testing.T, ev *Evaluation, id string) *Results {
+func okCell(t *testing.T, ev *notebook.Evaluation, id string) *notebook.Results {
 	t.Helper()
 	o := ev.Cell(id)
-	if o == nil || o.Status != StatusOK {
+	if o == nil || o.Status != notebook.StatusOK {
 		t.Fatalf("cell %s: %+v", id, o.Err)
 	}
 	return o.Results
 }
 
-func scalar(t *testing.T, r *Results, name string) Scalar {
+func scalar(t *testing.T, r *notebook.Results, name string) notebook.Scalar {
 	t.Helper()
 	s, ok := r.Scalar(name)
 	if !ok {
@@ -78,7 +80,7 @@ func TestProblemValidation(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			ev := evalCells(t, kc("duct", "problem", tc.inputs))
 			o := ev.Cell("duct")
-			if o.Status != StatusError {
+			if o.Status != notebook.StatusError {
 				t.Fatalf("accepted: %+v", o.Results)
 			}
 			if got := o.Err.Error(); !strings.HasPrefix(got, tc.want) {
@@ -97,7 +99,7 @@ func TestFailingCellIsolated(t *testing.T) {
 		kc("mesh", "mesh", map[string]any{"problem": "good", "cells": 4}),
 		kc("solve", "solve", map[string]any{"mesh": "mesh"}),
 	)
-	if o := ev.Cell("badmesh"); o.Status != StatusError || o.Err.Error() != "cell badmesh: input problem: needs cell bad, which failed" {
+	if o := ev.Cell("badmesh"); o.Status != notebook.StatusError || o.Err.Error() != "cell badmesh: input problem: needs cell bad, which failed" {
 		t.Errorf("badmesh: %v %v", o.Status, o.Err)
 	}
 	okCell(t, ev, "solve")
@@ -198,7 +200,7 @@ func TestSolveGradientErrorRate(t *testing.T) {
 			kc("s", "solve", map[string]any{"mesh": "m"}))
 		r := okCell(t, ev, "s")
 		s := scalar(t, r, "gradient_error")
-		if s.Label != Reference {
+		if s.Label != notebook.Reference {
 			t.Errorf("label %s", s.Label)
 		}
 		errs = append(errs, s.Value)

@@ -1,17 +1,18 @@
-package notebook
+package kinds
 
 import (
 	"errors"
 	"fmt"
-	"gapbook/problem"
 
 	"gapbook/estimate"
 	"gapbook/fem"
 	"gapbook/mesh"
 	"gapbook/nonlinear"
+	"gapbook/notebook"
+	"gapbook/problem"
 )
 
-func init() { Register(solveKind{}) }
+func init() { notebook.Register(solveKind{}) }
 
 // solveKind minimises the discrete energy on a mesh by Newton's method.
 type solveKind struct{}
@@ -20,12 +21,12 @@ func (solveKind) Name() string { return "solve" }
 func (solveKind) Doc() string {
 	return "The P1 finite element solution v minimising J(w) = ∫ G(∇w) − f w with w = u_D at the boundary nodes, by Newton's method with multigrid (for a problem with a time horizon: its data at t = 0; use an evolve cell for the evolution)."
 }
-func (solveKind) Inputs() []Input {
-	return []Input{
-		{Name: "mesh", Type: Ref, RefKinds: []string{"mesh"}, Doc: "id of the mesh cell to solve on"},
-		{Name: "tolerance", Type: Number, Default: 1e-10, Low: Above(0), High: Below(1),
+func (solveKind) Inputs() []notebook.Input {
+	return []notebook.Input{
+		{Name: "mesh", Type: notebook.Ref, RefKinds: []string{"mesh"}, Doc: "id of the mesh cell to solve on"},
+		{Name: "tolerance", Type: notebook.Number, Default: 1e-10, Low: notebook.Above(0), High: notebook.Below(1),
 			Doc: "Newton stops when the energy decrement falls below this fraction of the energy scale (any v is allowed in the bounds; a looser tolerance only weakens them)"},
-		{Name: "max_newton", Type: Integer, Default: 60, Low: AtLeast(1), High: AtMost(1000),
+		{Name: "max_newton", Type: notebook.Integer, Default: 60, Low: notebook.AtLeast(1), High: notebook.AtMost(1000),
 			Doc: "largest number of Newton steps per mesh level and continuation stage"},
 	}
 }
@@ -43,10 +44,10 @@ type Solution struct {
 	MaxNewton int
 }
 
-func (solveKind) Evaluate(c *Context, in Values) (*Results, error) {
+func (solveKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Results, error) {
 	d, ok := c.Object(in.Text("mesh"), "mesh").(*Discretisation)
 	if !ok {
-		return nil, FieldErr("mesh", "cell %s is not a mesh cell", in.Text("mesh"))
+		return nil, notebook.FieldErr("mesh", "cell %s is not a mesh cell", in.Text("mesh"))
 	}
 	sol, err := solveOn(c, d.Problem, d.Mesh, in.Number("tolerance"), in.Int("max_newton"))
 	if err != nil {
@@ -57,12 +58,12 @@ func (solveKind) Evaluate(c *Context, in Values) (*Results, error) {
 
 // solveOn runs Newton on m for p and wraps the answer; a failed solve
 // names the tolerance input so that the user knows what to change.
-func solveOn(c *Context, p *problem.Problem, m *mesh.Mesh, tol float64, maxNewton int) (*Solution, error) {
+func solveOn(c *notebook.Context, p *problem.Problem, m *mesh.Mesh, tol float64, maxNewton int) (*Solution, error) {
 	return solveWith(c, p, m, p.DirichletAt(0), tol, maxNewton)
 }
 
 // solveWith is solveOn with other boundary data.
-func solveWith(c *Context, p *problem.Problem, m *mesh.Mesh, uD func(x, y float64) float64, tol float64, maxNewton int) (*Solution, error) {
+func solveWith(c *notebook.Context, p *problem.Problem, m *mesh.Mesh, uD func(x, y float64) float64, tol float64, maxNewton int) (*Solution, error) {
 	s, err := fem.NewP1(m)
 	if err != nil {
 		return nil, err
@@ -79,34 +80,34 @@ func solveWith(c *Context, p *problem.Problem, m *mesh.Mesh, uD func(x, y float6
 		}
 		var nc *nonlinear.NotConvergedError
 		if errors.As(err, &nc) {
-			return nil, FieldErr("max_newton", "%v; allow more steps or a looser tolerance", err)
+			return nil, notebook.FieldErr("max_newton", "%v; allow more steps or a looser tolerance", err)
 		}
 		return nil, err
 	}
 	return &Solution{Problem: p, Mesh: m, Space: s, V: r.U, Result: r, Tolerance: tol, MaxNewton: maxNewton}, nil
 }
 
-func solutionResults(sol *Solution) *Results {
+func solutionResults(sol *Solution) *notebook.Results {
 	r := sol.Result
-	res := &Results{
-		Scalars: []Scalar{
+	res := &notebook.Results{
+		Scalars: []notebook.Scalar{
 			// J(v) is computed, not bounded: its only errors are the
 			// quadrature of f v and rounding. Bounds of J(u) come from a
 			// bound cell.
-			{Name: "energy", Value: r.Energy, Label: Estimate, Unit: fmt.Sprintf("J(v), discrete energy; load quadrature of degree %d", r.LoadDegree)},
-			{Name: "newton_steps", Value: float64(r.Newton), Label: Reference, Unit: "count over all levels and stages"},
-			{Name: "cg_iterations", Value: float64(r.CG), Label: Reference, Unit: "count"},
-			{Name: "unknowns", Value: float64(sol.Space.NumFree()), Label: Reference, Unit: "free nodes"},
+			{Name: "energy", Value: r.Energy, Label: notebook.Estimate, Unit: fmt.Sprintf("J(v), discrete energy; load quadrature of degree %d", r.LoadDegree)},
+			{Name: "newton_steps", Value: float64(r.Newton), Label: notebook.Reference, Unit: "count over all levels and stages"},
+			{Name: "cg_iterations", Value: float64(r.CG), Label: notebook.Reference, Unit: "count"},
+			{Name: "unknowns", Value: float64(sol.Space.NumFree()), Label: notebook.Reference, Unit: "free nodes"},
 		},
-		Tables:  []Table{historyTable(r.History)},
+		Tables:  []notebook.Table{historyTable(r.History)},
 		Objects: map[string]any{"solution": sol},
 	}
 	if mf := sol.Problem.Exact(); mf != nil {
 		_, u, grad := mf.At(0)
 		e := estimate.GradientError(sol.Space, sol.V, grad, sol.Problem.Exponent())
 		res.Scalars = append(res.Scalars,
-			Scalar{Name: "gradient_error", Value: e, Label: Reference, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g against the exact solution, quadrature degree %d", sol.Problem.Exponent(), estimate.ErrorDegree)},
-			Scalar{Name: "max_nodal_error", Value: estimate.MaxNodalError(sol.Mesh, sol.V, u), Label: Reference, Unit: "largest |u − v| at the nodes"})
+			notebook.Scalar{Name: "gradient_error", Value: e, Label: notebook.Reference, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g against the exact solution, quadrature degree %d", sol.Problem.Exponent(), estimate.ErrorDegree)},
+			notebook.Scalar{Name: "max_nodal_error", Value: estimate.MaxNodalError(sol.Mesh, sol.V, u), Label: notebook.Reference, Unit: "largest |u − v| at the nodes"})
 	}
 	m := sol.Mesh
 	if m.Dim == 1 {
@@ -117,8 +118,8 @@ func solutionResults(sol *Solution) *Results {
 	return res
 }
 
-func historyTable(h []nonlinear.Step) Table {
-	t := Table{Name: "newton", Title: "Newton history", Columns: []Column{
+func historyTable(h []nonlinear.Step) notebook.Table {
+	t := notebook.Table{Name: "newton", Title: "Newton history", Columns: []notebook.Column{
 		{Name: "step"}, {Name: "level"}, {Name: "unknowns"}, {Name: "epsilon", Unit: "continuation"},
 		{Name: "energy"}, {Name: "decrement", Unit: "relative"}, {Name: "residual", Unit: "relative"},
 		{Name: "step_length"}, {Name: "cg"}}}

@@ -1,9 +1,11 @@
-package notebook
+package kinds
 
 import (
 	"context"
 	"os"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // The example studies with exact solutions keep their promise: in every
@@ -11,16 +13,16 @@ import (
 // bound lies above the true error (efficiency ≥ 1), and the flow-rate
 // intervals of the coolant sweep are ordered as its note says.
 func TestExamplesBoundTheirErrors(t *testing.T) {
-	run := func(name string) *Evaluation {
-		data, err := os.ReadFile("../examples/" + name)
+	run := func(name string) *notebook.Evaluation {
+		data, err := os.ReadFile("../../examples/" + name)
 		if err != nil {
 			t.Fatal(err)
 		}
-		nb, err := Load(data)
+		nb, err := notebook.Load(data)
 		if err != nil {
 			t.Fatal(err)
 		}
-		ev, err := NewEngine().Evaluate(context.Background(), nb, Options{})
+		ev, err := notebook.NewEngine().Evaluate(context.Background(), nb, notebook.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -1,17 +1,18 @@
-package notebook
+package kinds
 
 import (
 	"fmt"
-	"gapbook/problem"
 	"math"
 	"strings"
 
 	"gapbook/convex"
 	"gapbook/estimate"
 	"gapbook/mesh"
+	"gapbook/notebook"
+	"gapbook/problem"
 )
 
-func init() { Register(boundKind{}) }
+func init() { notebook.Register(boundKind{}) }
 
 // boundKind reconstructs a flux for a discrete solution and reports the
 // guaranteed two-sided bounds of docs/math.md §4.
@@ -30,8 +31,8 @@ const (
 	constWidth = "width bound"
 )
 
-func (boundKind) Intervals() []IntervalDef {
-	return []IntervalDef{
+func (boundKind) Intervals() []notebook.IntervalDef {
+	return []notebook.IntervalDef{
 		{Name: "error", Lower: "minorant", Upper: "majorant", Unit: "μ(v) = J(v) − J(u), the error of v in the problem's own measure"},
 		{Name: "energy", Lower: "energy_low", Upper: "energy_high", Unit: "J(u), the energy of the exact solution"},
 		{Name: "flow", Lower: "flow_low", Upper: "flow_high", Unit: "Q = ∫u, the flow rate of the exact solution"},
@@ -42,32 +43,32 @@ func (boundKind) Name() string { return "bound" }
 func (boundKind) Doc() string {
 	return "Guaranteed bounds of the error of a discrete solution: the error measure μ(v) = J(v) − J(u) from above and below, the flux error, the gradient norm, the energy J(u) and flow rate as intervals, and where the error sits."
 }
-func (boundKind) Inputs() []Input {
-	return []Input{
-		{Name: "solution", Type: Ref, RefKinds: []string{"solve"}, Doc: "id of the solve cell whose solution v is bounded"},
-		{Name: "flux", Type: Choice, Default: fluxEquilibrated, Choices: []string{fluxEquilibrated, fluxMinimised, fluxAveraged},
+func (boundKind) Inputs() []notebook.Input {
+	return []notebook.Input{
+		{Name: "solution", Type: notebook.Ref, RefKinds: []string{"solve"}, Doc: "id of the solve cell whose solution v is bounded"},
+		{Name: "flux", Type: notebook.Choice, Default: fluxEquilibrated, Choices: []string{fluxEquilibrated, fluxMinimised, fluxAveraged},
 			Doc: "the flux y* of the bounds: equilibrated (div y* balances the projected source on every cell; sharp, converging bounds), minimised (the averaged flux plus the continuous piecewise linear field that lowers the majorant most; no global solve, slower to evaluate) or averaged (nodal averages of ∂G(∇v); cheap, but its bounds do not converge)"},
-		{Name: "order", Type: Integer, Default: 1, Low: AtLeast(0), High: AtMost(1),
+		{Name: "order", Type: notebook.Integer, Default: 1, Low: notebook.AtLeast(0), High: notebook.AtMost(1),
 			Doc: "Raviart–Thomas order k of the equilibrated flux: 0 (cell means of f) or 1 (f projected onto linear functions per cell, sharper for smooth f)"},
-		{Name: "newton", Type: Integer, Default: 3, Low: AtLeast(0), High: AtMost(50),
+		{Name: "newton", Type: notebook.Integer, Default: 3, Low: notebook.AtLeast(0), High: notebook.AtMost(50),
 			Doc: "Newton steps that bring the equilibrated flux closer to the exact one (sharper bounds, never less valid)"},
-		{Name: "constant", Type: Choice, Default: constBest, Choices: []string{constBest, constWidth},
+		{Name: "constant", Type: notebook.Choice, Default: constBest, Choices: []string{constBest, constWidth},
 			Doc: "Friedrichs constant of the residual term: the best guaranteed one (for α = 2 the Crouzeix–Raviart eigenvalue bound when smaller than the width bound) or the width bound alone"},
-		{Name: "degree", Type: Integer, Default: estimate.DefaultDegree, Low: AtLeast(2), High: AtMost(8),
+		{Name: "degree", Type: notebook.Integer, Default: estimate.DefaultDegree, Low: notebook.AtLeast(2), High: notebook.AtMost(8),
 			Doc: "exactness degree of the quadrature rule of the gap integrals; the terms with f use the solver's load rule, whose samples of f they share (the guarantee holds up to these quadratures, both listed in the assumptions)"},
-		{Name: "minorant", Type: Bool, Default: true,
+		{Name: "minorant", Type: notebook.Bool, Default: true,
 			Doc: "solve once more on the uniformly refined mesh: its energy gives the lower bound μ(v) ≥ J(v) − J(w) and the upper end of the energy interval"},
 	}
 }
 
-func convexLabel(l convex.Label) Label {
+func convexLabel(l convex.Label) notebook.Label {
 	switch l {
 	case convex.Guaranteed:
-		return Guaranteed
+		return notebook.Guaranteed
 	case convex.Reference:
-		return Reference
+		return notebook.Reference
 	}
-	return Estimate
+	return notebook.Estimate
 }
 
 // Bounds is the object a bound cell hands on (name "bounds").
@@ -77,10 +78,10 @@ type Bounds struct {
 	Flux     estimate.Flux
 }
 
-func (boundKind) Evaluate(c *Context, in Values) (*Results, error) {
+func (boundKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Results, error) {
 	sol, ok := c.Object(in.Text("solution"), "solution").(*Solution)
 	if !ok {
-		return nil, FieldErr("solution", "cell %s is not a solve cell", in.Text("solution"))
+		return nil, notebook.FieldErr("solution", "cell %s is not a solve cell", in.Text("solution"))
 	}
 	st := boundSettings{flux: in.Text("flux"), order: in.Int("order"), newton: in.Int("newton"),
 		constant: in.Text("constant"), degree: in.Int("degree")}
@@ -107,13 +108,13 @@ type boundSettings struct {
 }
 
 // computeBound reconstructs the flux and evaluates the bounds for sol.
-func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) {
+func computeBound(c *notebook.Context, sol *Solution, st boundSettings) (*Bounds, error) {
 	p := sol.Problem
 	s := sol.Space
 	if len(p.G.Modulus().Bounds) == 0 {
 		// A formula potential has no proven modulus: refuse rather than
 		// invent one, and say what would work.
-		return nil, FieldErr("solution", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Name)
+		return nil, notebook.FieldErr("solution", "the potential %s of problem %s has no proven modulus, so no guaranteed bound exists; use a catalogue potential", p.G, p.Name)
 	}
 	c.Progress(0.1, "Friedrichs constant")
 	cf, err := friedrichs(c, sol.Mesh, p.Exponent(), st.constant)
@@ -146,13 +147,13 @@ func computeBound(c *Context, sol *Solution, st boundSettings) (*Bounds, error) 
 		if e := c.Err(); e != nil {
 			return nil, e
 		}
-		return nil, FieldErr("flux", "%v", err)
+		return nil, notebook.FieldErr("flux", "%v", err)
 	}
 	opt := estimate.Options{Degree: st.degree, Friedrichs: cf, Samples: samples}
 	c.Progress(0.5, "bounds")
 	r, err := estimate.Estimate(s, p, sol.V, y, opt)
 	if err != nil {
-		return nil, FieldErr("solution", "%v", err)
+		return nil, notebook.FieldErr("solution", "%v", err)
 	}
 	return &Bounds{Solution: sol, Result: r, Flux: y}, nil
 }
@@ -173,7 +174,7 @@ func boundSamples(sol *Solution, degree int) (*estimate.Samples, error) {
 	return estimate.NewSamples(sol.Space, p.SourceAt(0), degree)
 }
 
-func friedrichs(c *Context, m *mesh.Mesh, alpha float64, which string) (estimate.Constant, error) {
+func friedrichs(c *notebook.Context, m *mesh.Mesh, alpha float64, which string) (estimate.Constant, error) {
 	var cf estimate.Constant
 	var err error
 	if which == constWidth {
@@ -185,31 +186,31 @@ func friedrichs(c *Context, m *mesh.Mesh, alpha float64, which string) (estimate
 		if e := c.Err(); e != nil {
 			return cf, e
 		}
-		return cf, FieldErr("constant", "%v", err)
+		return cf, notebook.FieldErr("constant", "%v", err)
 	}
 	return cf, nil
 }
 
 // boundResults lists the bounds with their labels, the reference errors
 // when the exact solution is known, the assumptions and the indicators.
-func boundResults(b *Bounds, st boundSettings) *Results {
+func boundResults(b *Bounds, st boundSettings) *notebook.Results {
 	r := b.Result
 	sol := b.Solution
 	p := sol.Problem
 	lab := convexLabel(r.Label)
-	res := &Results{Objects: map[string]any{"bounds": b}}
-	add := func(name string, v float64, l Label, unit string) {
-		res.Scalars = append(res.Scalars, Scalar{Name: name, Value: v, Label: l, Unit: unit})
+	res := &notebook.Results{Objects: map[string]any{"bounds": b}}
+	add := func(name string, v float64, l notebook.Label, unit string) {
+		res.Scalars = append(res.Scalars, notebook.Scalar{Name: name, Value: v, Label: l, Unit: unit})
 	}
 	add("majorant", r.Majorant.Value, lab, "μ(v) = J(v) − J(u) ≤ majorant")
 	add("dual_majorant", r.Dual.Value, lab, "μ*(y*) = ∫ D_G(∇u, y*) ≤ dual_majorant")
 	add("norm_bound", r.Norm.Value, lab, fmt.Sprintf("‖∇(u − v)‖ in L^%g ≤ norm_bound", p.Exponent()))
 	add("energy_low", r.Energy-r.Majorant.Value, lab, "J(u) ≥ J(v) − majorant")
-	add("discrete_energy", r.Energy, Estimate, fmt.Sprintf("J(v): ∫ G(∇v) exactly, ∫ f v by a rule of degree %d", r.Quadrature.ResidualDegree))
-	add("gap_integral", r.D, Estimate, "∫ D_G(∇v, y*), quadrature")
+	add("discrete_energy", r.Energy, notebook.Estimate, fmt.Sprintf("J(v): ∫ G(∇v) exactly, ∫ f v by a rule of degree %d", r.Quadrature.ResidualDegree))
+	add("gap_integral", r.D, notebook.Estimate, "∫ D_G(∇v, y*), quadrature")
 	add("residual_term", r.R.Value, lab, fmt.Sprintf("R in ∫ r(u − v) ≤ R ‖∇(u − v)‖, %s form", r.Form))
 	// θ is a parameter of the inequality, not a bound of anything.
-	add("theta", r.Theta, Estimate, "θ at which the Young form (1 − θ)μ + μ* ≤ young_rhs equals the majorant")
+	add("theta", r.Theta, notebook.Estimate, "θ at which the Young form (1 − θ)μ + μ* ≤ young_rhs equals the majorant")
 	if !math.IsNaN(r.YoungRHS) {
 		add("young_rhs", r.YoungRHS, lab, "right side of the Young form at that θ")
 	}
@@ -222,10 +223,10 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 		if interpolatedData(r.Assumptions) {
 			note = "; the bounds concern the interpolated boundary data, this u does not, so efficiency may fall below 1"
 		}
-		add("primal_error", mu, Reference, fmt.Sprintf("μ(v) = ∫ D_G(∇v, ∂G(∇u)) from the exact solution, quadrature degree %d%s", estimate.ErrorDegree, note))
-		add("dual_error", dual, Reference, "μ*(y*) = ∫ D_G(∇u, y*) from the exact solution")
-		add("efficiency", r.Majorant.Value/mu, Reference, "majorant / μ(v) (≥ 1)")
-		add("total_efficiency", (r.Majorant.Value+r.Dual.Value)/(mu+dual), Reference, "(majorant + dual_majorant) / (μ(v) + μ*(y*))")
+		add("primal_error", mu, notebook.Reference, fmt.Sprintf("μ(v) = ∫ D_G(∇v, ∂G(∇u)) from the exact solution, quadrature degree %d%s", estimate.ErrorDegree, note))
+		add("dual_error", dual, notebook.Reference, "μ*(y*) = ∫ D_G(∇u, y*) from the exact solution")
+		add("efficiency", r.Majorant.Value/mu, notebook.Reference, "majorant / μ(v) (≥ 1)")
+		add("total_efficiency", (r.Majorant.Value+r.Dual.Value)/(mu+dual), notebook.Reference, "(majorant + dual_majorant) / (μ(v) + μ*(y*))")
 	}
 	assum := append([]string{}, r.Assumptions...)
 	switch st.flux {
@@ -236,7 +237,7 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 	default:
 		assum = append(assum, "averaged flux")
 	}
-	t := Table{Name: "assumptions", Title: "What the guaranteed numbers rest on", Columns: []Column{{Name: "item"}}}
+	t := notebook.Table{Name: "assumptions", Title: "What the guaranteed numbers rest on", Columns: []notebook.Column{{Name: "item"}}}
 	for i, a := range assum {
 		t.Labels = append(t.Labels, a)
 		t.Rows = append(t.Rows, []float64{float64(i + 1)})
@@ -250,8 +251,8 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 		for k, cl := range m.Cells {
 			xs[k] = (m.Nodes[cl[0]].X + m.Nodes[cl[1]].X) / 2
 		}
-		res.Plots = append(res.Plots, Plot{Name: "indicators", Title: "local indicators η_T at cell midpoints", XLabel: "x", YLabel: "η_T", LogY: true,
-			Series: []Series{{Name: "η_T", X: xs, Y: r.Indicators}}})
+		res.Plots = append(res.Plots, notebook.Plot{Name: "indicators", Title: "local indicators η_T at cell midpoints", XLabel: "x", YLabel: "η_T", LogY: true,
+			Series: []notebook.Series{{Name: "η_T", X: xs, Y: r.Indicators}}})
 	}
 	return res
 }
@@ -259,34 +260,34 @@ func boundResults(b *Bounds, st boundSettings) *Results {
 // addMinorant solves on the uniform refinement of the mesh and adds the
 // minorant, the upper end of the energy interval and, where it applies,
 // the flow-rate interval.
-func addMinorant(c *Context, b *Bounds, st boundSettings, res *Results) error {
+func addMinorant(c *notebook.Context, b *Bounds, st boundSettings, res *notebook.Results) error {
 	sol := b.Solution
 	p := sol.Problem
 	r := b.Result
 	fine, err := sol.Mesh.Refine()
 	if err != nil {
-		return FieldErr("minorant", "refined mesh: %v; switch the minorant off", err)
+		return notebook.FieldErr("minorant", "refined mesh: %v; switch the minorant off", err)
 	}
 	w, err := solveWith(c, p, fine, coarseData(sol, fine), sol.Tolerance, sol.MaxNewton)
 	if err != nil {
-		if fe, ok := err.(*FieldError); ok {
-			return FieldErr("minorant", "solve on the refined mesh: %s", fe.Msg)
+		if fe, ok := err.(*notebook.FieldError); ok {
+			return notebook.FieldErr("minorant", "solve on the refined mesh: %s", fe.Msg)
 		}
-		return FieldErr("minorant", "solve on the refined mesh: %v", err)
+		return notebook.FieldErr("minorant", "solve on the refined mesh: %v", err)
 	}
 	jw := estimate.Energy(w.Space, p.G, p.SourceAt(0), w.V, r.Degree)
 	mu := estimate.Minorant(r.Energy, jw)
 	lab := convexLabel(r.Label)
 	e := estimate.EnergyInterval(r, mu)
 	res.Scalars = append(res.Scalars,
-		Scalar{Name: "minorant", Value: mu, Label: lab, Unit: "μ(v) ≥ J(v) − J(w), w on the refined mesh"},
-		Scalar{Name: "energy_high", Value: e.Hi, Label: lab, Unit: "J(u) ≤ J(w)"})
+		notebook.Scalar{Name: "minorant", Value: mu, Label: lab, Unit: "μ(v) ≥ J(v) − J(w), w on the refined mesh"},
+		notebook.Scalar{Name: "energy_high", Value: e.Hi, Label: lab, Unit: "J(u) ≤ J(w)"})
 	if p.Family == problem.Power && p.ZeroDirichlet() && !math.IsNaN(p.FConst) && p.FConst != 0 {
 		q, err := estimate.FlowRate(e, p.Exponent(), p.FConst)
 		if err == nil {
 			res.Scalars = append(res.Scalars,
-				Scalar{Name: "flow_low", Value: q.Lo, Label: lab, Unit: "Q = ∫u ≥ flow_low (power potential, u_D = 0, constant f)"},
-				Scalar{Name: "flow_high", Value: q.Hi, Label: lab, Unit: "Q = ∫u ≤ flow_high"})
+				notebook.Scalar{Name: "flow_low", Value: q.Lo, Label: lab, Unit: "Q = ∫u ≥ flow_low (power potential, u_D = 0, constant f)"},
+				notebook.Scalar{Name: "flow_high", Value: q.Hi, Label: lab, Unit: "Q = ∫u ≤ flow_high"})
 		}
 	}
 	return nil

@@ -1,10 +1,12 @@
-package notebook
+package kinds
 
 import (
 	"fmt"
 	"math"
 	"strings"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // With an exact solution: minorant ≤ μ(v) ≤ majorant (so efficiency ≥ 1),
@@ -133,7 +135,7 @@ func TestBoundRefusesWithoutModulus(t *testing.T) {
 		kc("b", "bound", map[string]any{"solution": "s"}))
 	okCell(t, ev, "s")
 	o := ev.Cell("b")
-	if o.Status != StatusError || o.Err.Field != "solution" {
+	if o.Status != notebook.StatusError || o.Err.Field != "solution" {
 		t.Fatalf("bound without modulus: %v %v", o.Status, o.Err)
 	}
 }
@@ -155,12 +157,12 @@ func TestConstantKind(t *testing.T) {
 		kc("cl", "constant", map[string]any{"mesh": "ml", "eigenvalue": false}),
 	)
 	ri := okCell(t, ev, "ci")
-	if c := scalar(t, ri, "width_bound"); math.Abs(c.Value-0.3281925257) > 1e-9 || c.Label != Guaranteed {
+	if c := scalar(t, ri, "width_bound"); math.Abs(c.Value-0.3281925257) > 1e-9 || c.Label != notebook.Guaranteed {
 		t.Errorf("width bound %v, want 0.3281925257 (guaranteed)", c)
 	}
 	// The P1 eigenvalue lies above λ_3 = 28.2887619760 (docs/checks.md item 1),
 	// close to it on 64 cells.
-	if l := scalar(t, ri, "p_eigenvalue"); l.Value < 28.2887619760 || l.Value > 28.2887619760*1.01 || l.Label != Estimate {
+	if l := scalar(t, ri, "p_eigenvalue"); l.Value < 28.2887619760 || l.Value > 28.2887619760*1.01 || l.Label != notebook.Estimate {
 		t.Errorf("α-eigenvalue %v, want just above 28.2887619760 (estimate)", l)
 	}
 	for _, tc := range []struct {
@@ -185,7 +187,7 @@ func TestConstantKind(t *testing.T) {
 	}
 }
 
-func interval(t *testing.T, r *Results, name string) Interval {
+func interval(t *testing.T, r *notebook.Results, name string) notebook.Interval {
 	t.Helper()
 	for _, iv := range r.Intervals {
 		if iv.Name == name {
@@ -193,26 +195,26 @@ func interval(t *testing.T, r *Results, name string) Interval {
 		}
 	}
 	t.Fatalf("no interval %s in %+v", name, r.Intervals)
-	return Interval{}
+	return notebook.Interval{}
 }
 
 // Check refuses intervals that do not restate their scalars.
 func TestIntervalsRestateScalars(t *testing.T) {
-	r := &Results{Scalars: []Scalar{{Name: "lo", Value: 1, Label: Guaranteed, Unit: "x"}, {Name: "hi", Value: 2, Label: Estimate, Unit: "x"}}}
-	r.AddIntervals([]IntervalDef{{Name: "x", Lower: "lo", Upper: "hi"}, {Name: "absent", Lower: "lo", Upper: "nope"}})
-	if len(r.Intervals) != 1 || r.Intervals[0].Label != Estimate || r.Intervals[0].Lower != 1 || r.Intervals[0].Upper != 2 {
+	r := &notebook.Results{Scalars: []notebook.Scalar{{Name: "lo", Value: 1, Label: notebook.Guaranteed, Unit: "x"}, {Name: "hi", Value: 2, Label: notebook.Estimate, Unit: "x"}}}
+	r.AddIntervals([]notebook.IntervalDef{{Name: "x", Lower: "lo", Upper: "hi"}, {Name: "absent", Lower: "lo", Upper: "nope"}})
+	if len(r.Intervals) != 1 || r.Intervals[0].Label != notebook.Estimate || r.Intervals[0].Lower != 1 || r.Intervals[0].Upper != 2 {
 		t.Fatalf("intervals %+v; want one, labelled estimate (the weaker end)", r.Intervals)
 	}
 	if ps := r.Check(); len(ps) != 0 {
 		t.Fatalf("consistent intervals refused: %v", ps)
 	}
-	for _, bad := range []func(*Interval){
-		func(iv *Interval) { iv.Upper = 3 },
-		func(iv *Interval) { iv.Label = Guaranteed },
-		func(iv *Interval) { iv.Ends[1] = "nope" },
+	for _, bad := range []func(*notebook.Interval){
+		func(iv *notebook.Interval) { iv.Upper = 3 },
+		func(iv *notebook.Interval) { iv.Label = notebook.Guaranteed },
+		func(iv *notebook.Interval) { iv.Ends[1] = "nope" },
 	} {
 		c := *r
-		c.Intervals = []Interval{r.Intervals[0]}
+		c.Intervals = []notebook.Interval{r.Intervals[0]}
 		bad(&c.Intervals[0])
 		if ps := c.Check(); len(ps) == 0 {
 			t.Errorf("inconsistent interval %+v accepted", c.Intervals[0])

@@ -1,9 +1,11 @@
-package notebook
+package kinds
 
 import (
 	"math"
 	"strings"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // A sweep over the exponent gives one row per value with the chosen
@@ -53,7 +55,7 @@ func TestSweepErrors(t *testing.T) {
 	for _, tc := range cases {
 		ev := evalCells(t, append(base, kc("sw", "sweep", tc.inputs))...)
 		o := ev.Cell("sw")
-		if o.Status != StatusError || !strings.HasPrefix(o.Err.Error(), tc.want) {
+		if o.Status != notebook.StatusError || !strings.HasPrefix(o.Err.Error(), tc.want) {
 			t.Errorf("got %v\nwant prefix %q", o.Err, tc.want)
 		}
 	}
@@ -94,7 +96,7 @@ func TestAdapt(t *testing.T) {
 			t.Errorf("efficiency %g < 1", e)
 		}
 	}
-	if o := ev.Cell("ai"); o.Status != StatusError || !strings.Contains(o.Err.Error(), "needs a 2-D domain") {
+	if o := ev.Cell("ai"); o.Status != notebook.StatusError || !strings.Contains(o.Err.Error(), "needs a 2-D domain") {
 		t.Errorf("1-D adapt: %v", o.Err)
 	}
 }
@@ -123,7 +125,7 @@ func TestKindInputErrors(t *testing.T) {
 	for _, tc := range cases {
 		ev := evalCells(t, append(base, tc.cell)...)
 		o := ev.Cell("x")
-		if o.Status != StatusError || !strings.HasPrefix(o.Err.Error(), tc.want) {
+		if o.Status != notebook.StatusError || !strings.HasPrefix(o.Err.Error(), tc.want) {
 			t.Errorf("got %v\nwant prefix %q", o.Err, tc.want)
 		}
 	}

@@ -1,4 +1,4 @@
-package notebook
+package kinds
 
 import (
 	"context"
@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // TestMigrateV1Examples loads every example as version 1 saved it, with its
@@ -28,7 +30,7 @@ func TestMigrateV1Examples(t *testing.T) {
 			if !strings.Contains(string(data), `"gapbook": 1,`) || !strings.Contains(string(data), `"alpha"`) {
 				t.Fatal("not a version-1 file with an alpha input")
 			}
-			nb, err := Load(data)
+			nb, err := notebook.Load(data)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -46,30 +48,30 @@ func TestMigrateV1Examples(t *testing.T) {
 				}
 			}
 			for _, o := range nb.States() {
-				if o.Status != StatusOK {
+				if o.Status != notebook.StatusOK {
 					t.Errorf("cell %s is %s after migration, want its saved results current", o.ID, o.Status)
 				}
 			}
-			cur, err := os.ReadFile(filepath.Join("..", "examples", filepath.Base(f)))
+			cur, err := os.ReadFile(filepath.Join("..", "..", "examples", filepath.Base(f)))
 			if err != nil {
 				t.Fatal(err)
 			}
-			nb2, err := Load(cur)
+			nb2, err := notebook.Load(cur)
 			if err != nil {
 				t.Fatal(err)
 			}
-			h1, h2 := nb.hashes(false), nb2.hashes(false)
+			h1, h2 := nb.States(), nb2.States()
 			for i := range h1 {
-				if h1[i] == "" || h1[i] != h2[i] {
+				if h1[i].Hash == "" || h1[i].Hash != h2[i].Hash {
 					t.Errorf("cell %s: migrated inputs differ from the version-2 example", nb.Cells[i].ID)
 				}
 			}
-			ev, err := NewEngine().Evaluate(context.Background(), nb, Options{})
+			ev, err := notebook.NewEngine().Evaluate(context.Background(), nb, notebook.Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
 			for _, o := range ev.Cells {
-				if o.Status != StatusOK || o.Reproduced != "yes" {
+				if o.Status != notebook.StatusOK || o.Reproduced != "yes" {
 					t.Errorf("cell %s: %s, reproduced %q %v", o.ID, o.Status, o.Reproduced, o.Differences)
 				}
 			}

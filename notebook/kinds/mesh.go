@@ -1,14 +1,15 @@
-package notebook
+package kinds
 
 import (
 	"fmt"
-	"gapbook/problem"
 	"math"
 
 	"gapbook/mesh"
+	"gapbook/notebook"
+	"gapbook/problem"
 )
 
-func init() { Register(meshKind{}) }
+func init() { notebook.Register(meshKind{}) }
 
 // meshKind discretises the domain of a problem cell.
 type meshKind struct{}
@@ -21,14 +22,14 @@ func (meshKind) Name() string { return "mesh" }
 func (meshKind) Doc() string {
 	return "A conforming triangle (or interval) mesh of the problem's domain, by cells across or a target cell size, with uniform refinements."
 }
-func (meshKind) Inputs() []Input {
-	return []Input{
-		{Name: "problem", Type: Ref, RefKinds: []string{"problem"}, Doc: "id of the problem cell whose domain is meshed"},
-		{Name: "cells", Type: Integer, Default: 8, Low: AtLeast(1), High: AtMost(4096),
+func (meshKind) Inputs() []notebook.Input {
+	return []notebook.Input{
+		{Name: "problem", Type: notebook.Ref, RefKinds: []string{"problem"}, Doc: "id of the problem cell whose domain is meshed"},
+		{Name: "cells", Type: notebook.Integer, Default: 8, Low: notebook.AtLeast(1), High: notebook.AtMost(4096),
 			Doc: "cells across the domain: per unit length on the L-shape, across the shorter side of a rectangle, across the diameter of a disk or polygon"},
-		{Name: "h", Type: Number, Default: 0.0, Low: AtLeast(0),
+		{Name: "h", Type: notebook.Number, Default: 0.0, Low: notebook.AtLeast(0),
 			Doc: "target largest cell diameter; when > 0 it replaces cells"},
-		{Name: "refinements", Type: Integer, Default: 0, Low: AtLeast(0), High: AtMost(12),
+		{Name: "refinements", Type: notebook.Integer, Default: 0, Low: notebook.AtLeast(0), High: notebook.AtMost(12),
 			Doc: "uniform refinements after that (each halves h and keeps the hierarchy the multigrid solver uses)"},
 	}
 }
@@ -39,10 +40,10 @@ type Discretisation struct {
 	Mesh    *mesh.Mesh
 }
 
-func (meshKind) Evaluate(c *Context, in Values) (*Results, error) {
+func (meshKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Results, error) {
 	p, ok := c.Object(in.Text("problem"), "problem").(*problem.Problem)
 	if !ok {
-		return nil, FieldErr("problem", "cell %s is not a problem cell", in.Text("problem"))
+		return nil, notebook.FieldErr("problem", "cell %s is not a problem cell", in.Text("problem"))
 	}
 	m, err := p.Domain.Mesh(in.Int("cells"), in.Number("h"))
 	if err != nil {
@@ -50,14 +51,14 @@ func (meshKind) Evaluate(c *Context, in Values) (*Results, error) {
 		if in.Number("h") > 0 {
 			field = "h"
 		}
-		return nil, FieldErr(field, "%v", err)
+		return nil, notebook.FieldErr(field, "%v", err)
 	}
 	for i := range in.Int("refinements") {
 		if err := c.Err(); err != nil {
 			return nil, err
 		}
 		if m, err = m.Refine(); err != nil {
-			return nil, FieldErr("refinements", "refinement %d: %v", i+1, err)
+			return nil, notebook.FieldErr("refinements", "refinement %d: %v", i+1, err)
 		}
 	}
 	return meshResults(p, m), nil
@@ -65,19 +66,19 @@ func (meshKind) Evaluate(c *Context, in Values) (*Results, error) {
 
 // meshResults describes a mesh: sizes as exact numbers and, when small,
 // the mesh itself coloured by cell diameter.
-func meshResults(p *problem.Problem, m *mesh.Mesh) *Results {
+func meshResults(p *problem.Problem, m *mesh.Mesh) *notebook.Results {
 	// Counts and sizes are exact properties of the discretisation, not
 	// approximations or bounds: they carry the label of outside values.
-	r := &Results{
-		Scalars: []Scalar{
-			{Name: "nodes", Value: float64(m.NumNodes()), Label: Reference, Unit: "count, exact"},
-			{Name: "cells", Value: float64(m.NumCells()), Label: Reference, Unit: "count, exact"},
-			{Name: "h", Value: m.MaxH(), Label: Reference, Unit: "largest cell diameter, exact geometry"},
+	r := &notebook.Results{
+		Scalars: []notebook.Scalar{
+			{Name: "nodes", Value: float64(m.NumNodes()), Label: notebook.Reference, Unit: "count, exact"},
+			{Name: "cells", Value: float64(m.NumCells()), Label: notebook.Reference, Unit: "count, exact"},
+			{Name: "h", Value: m.MaxH(), Label: notebook.Reference, Unit: "largest cell diameter, exact geometry"},
 		},
 		Objects: map[string]any{"mesh": &Discretisation{Problem: p, Mesh: m}},
 	}
 	if m.Dim == 2 {
-		r.Scalars = append(r.Scalars, Scalar{Name: "min_angle", Value: m.MinAngle() * 180 / math.Pi, Label: Reference, Unit: "degrees, smallest angle of any triangle"})
+		r.Scalars = append(r.Scalars, notebook.Scalar{Name: "min_angle", Value: m.MinAngle() * 180 / math.Pi, Label: notebook.Reference, Unit: "degrees, smallest angle of any triangle"})
 		if m.NumCells() <= fieldCellLimit {
 			r.Fields = append(r.Fields, meshField(m, "mesh", fmt.Sprintf("mesh: %d cells, coloured by diameter", m.NumCells()), m.Diameters(), true))
 		}
@@ -86,8 +87,8 @@ func meshResults(p *problem.Problem, m *mesh.Mesh) *Results {
 }
 
 // meshField turns values on m (per node or per cell) into a Field.
-func meshField(m *mesh.Mesh, name, title string, values []float64, perCell bool) Field {
-	f := Field{Name: name, Title: title, X: make([]float64, len(m.Nodes)), Y: make([]float64, len(m.Nodes)), Tri: m.Cells, PerCell: perCell, Values: values}
+func meshField(m *mesh.Mesh, name, title string, values []float64, perCell bool) notebook.Field {
+	f := notebook.Field{Name: name, Title: title, X: make([]float64, len(m.Nodes)), Y: make([]float64, len(m.Nodes)), Tri: m.Cells, PerCell: perCell, Values: values}
 	for i, q := range m.Nodes {
 		f.X[i], f.Y[i] = q.X, q.Y
 	}
@@ -95,10 +96,10 @@ func meshField(m *mesh.Mesh, name, title string, values []float64, perCell bool)
 }
 
 // nodalPlot draws values on the nodes of a 1-D mesh as a line.
-func nodalPlot(m *mesh.Mesh, name, title string, values []float64) Plot {
+func nodalPlot(m *mesh.Mesh, name, title string, values []float64) notebook.Plot {
 	xs := make([]float64, len(m.Nodes))
 	for i, q := range m.Nodes {
 		xs[i] = q.X
 	}
-	return Plot{Name: name, Title: title, XLabel: "x", YLabel: name, Series: []Series{{Name: name, X: xs, Y: values}}}
+	return notebook.Plot{Name: name, Title: title, XLabel: "x", YLabel: name, Series: []notebook.Series{{Name: name, X: xs, Y: values}}}
 }

@@ -1,9 +1,11 @@
-package notebook
+package kinds
 
 import (
 	"fmt"
 	"strings"
 	"testing"
+
+	"gapbook/notebook"
 )
 
 // The space-time bound of an evolve cell lies above the true error measure
@@ -29,7 +31,7 @@ func TestEvolveBoundsExactError(t *testing.T) {
 				kc("e", "evolve", map[string]any{"mesh": "m", "steps": tc.steps, "flux": tc.flux, "in_time": tc.inTime}))
 			r := okCell(t, ev, "e")
 			b, ex := scalar(t, r, "bound"), scalar(t, r, "exact_error").Value
-			if b.Label != Guaranteed || !(b.Value >= ex) || !(scalar(t, r, "efficiency").Value >= 1) {
+			if b.Label != notebook.Guaranteed || !(b.Value >= ex) || !(scalar(t, r, "efficiency").Value >= 1) {
 				t.Errorf("bound %v below the exact error %g", b, ex)
 			}
 			if fe, mb := scalar(t, r, "final_error").Value, scalar(t, r, "max_error_bound").Value; fe > mb {
@@ -44,7 +46,7 @@ func TestEvolveNeedsHorizon(t *testing.T) {
 		kc("p", "problem", map[string]any{"domain": "interval"}),
 		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
 		kc("e", "evolve", map[string]any{"mesh": "m"}))
-	if o := ev.Cell("e"); o.Status != StatusError || !strings.Contains(o.Err.Error(), "input mesh: problem p has no time horizon; set its input T > 0") {
+	if o := ev.Cell("e"); o.Status != notebook.StatusError || !strings.Contains(o.Err.Error(), "input mesh: problem p has no time horizon; set its input T > 0") {
 		t.Errorf("evolve without T: %v", o.Err)
 	}
 }
