@@ -17,9 +17,14 @@ import (
 
 // request is one message from the page.
 type request struct {
-	ID       int                `json:"id"`
-	Op       string             `json:"op"`
-	Doc      string             `json:"doc,omitempty"`
+	ID int    `json:"id"`
+	Op string `json:"op"`
+	// Doc is the whole notebook file: sent once per engine, or when a
+	// file is opened; it replaces the engine's copy.
+	Doc string `json:"doc,omitempty"`
+	// Edit carries the changes to the engine's copy since the last
+	// request: the cells that changed, whole, and the order of all cells.
+	Edit     *edit              `json:"edit,omitempty"`
 	Only     []string           `json:"only,omitempty"`
 	Override *notebook.Override `json:"override,omitempty"`
 	Record   string             `json:"record,omitempty"`
@@ -29,6 +34,19 @@ type request struct {
 	Table    string             `json:"table,omitempty"`
 	X        string             `json:"x,omitempty"`
 	Y        string             `json:"y,omitempty"`
+}
+
+// edit is a cell-level change of the engine's copy of the notebook.
+type edit struct {
+	// Cells are cell objects as in the file; a cell replaces the one with
+	// its id, or is added.
+	Cells []json.RawMessage `json:"cells,omitempty"`
+	// Order lists the ids of all cells in order; cells not named are
+	// removed. Absent: the order is unchanged (added cells go last).
+	Order []string `json:"order,omitempty"`
+	// Title and History, when set, replace the notebook's.
+	Title   *string         `json:"title,omitempty"`
+	History json.RawMessage `json:"history,omitempty"`
 }
 
 // kindView describes a kind for the page, which builds its forms from it.
@@ -229,11 +247,15 @@ func runViews(nb *notebook.Notebook) []runView {
 }
 
 // server answers requests; it keeps one engine so unchanged cells are
-// not computed twice.
+// not computed twice, and its own copy of the notebook, which the page
+// changes cell by cell (edit) instead of sending the whole study each time.
 type server struct {
 	engine *notebook.Engine
 	post   func(msg map[string]any)
 	now    func() time.Time
+	// doc is the engine's copy of the notebook file (nil before the page
+	// sent one).
+	doc []byte
 }
 
 func newServer(post func(map[string]any)) *server {
@@ -265,8 +287,78 @@ func (s *server) handle(data []byte) {
 	s.post(reply)
 }
 
-func (s *server) load(q *request) (*notebook.Notebook, []string, error) {
-	nb, err := notebook.Load([]byte(q.Doc))
+// update applies the request's document or edit to the engine's copy.
+func (s *server) update(q *request) error {
+	if q.Doc != "" {
+		s.doc = []byte(q.Doc)
+	}
+	if q.Edit == nil {
+		return nil
+	}
+	if s.doc == nil {
+		return fmt.Errorf("edit: the engine has no notebook yet; send the whole document first")
+	}
+	var top map[string]json.RawMessage
+	if err := json.Unmarshal(s.doc, &top); err != nil {
+		return fmt.Errorf("edit: the engine's copy is not a JSON object (%v); send the whole document", err)
+	}
+	var cells []json.RawMessage
+	if raw, ok := top["cells"]; ok {
+		if err := json.Unmarshal(raw, &cells); err != nil {
+			return fmt.Errorf("edit: the engine's copy has no list of cells (%v); send the whole document", err)
+		}
+	}
+	idOf := func(c json.RawMessage) string {
+		var h struct {
+			ID string `json:"id"`
+		}
+		json.Unmarshal(c, &h)
+		return h.ID
+	}
+	byID := map[string]int{}
+	for i, c := range cells {
+		byID[idOf(c)] = i
+	}
+	for _, c := range q.Edit.Cells {
+		id := idOf(c)
+		if i, ok := byID[id]; ok {
+			cells[i] = c
+		} else {
+			byID[id] = len(cells)
+			cells = append(cells, c)
+		}
+	}
+	if q.Edit.Order != nil {
+		ordered := make([]json.RawMessage, 0, len(q.Edit.Order))
+		for _, id := range q.Edit.Order {
+			i, ok := byID[id]
+			if !ok {
+				return fmt.Errorf("edit: the order names cell %q, which the engine does not have; send the whole document", notebook.Clip(id, 64))
+			}
+			ordered = append(ordered, cells[i])
+		}
+		cells = ordered
+	}
+	raw, err := json.Marshal(cells)
+	if err != nil {
+		return err
+	}
+	top["cells"] = raw
+	if q.Edit.Title != nil {
+		top["title"], _ = json.Marshal(*q.Edit.Title)
+	}
+	if q.Edit.History != nil {
+		top["history"] = q.Edit.History
+	}
+	s.doc, err = json.Marshal(top)
+	return err
+}
+
+func (s *server) load() (*notebook.Notebook, []string, error) {
+	if s.doc == nil {
+		return nil, nil, fmt.Errorf("the engine has no notebook yet; send the whole document first")
+	}
+	nb, err := notebook.Load(s.doc)
 	if nb == nil {
 		return nil, nil, fmt.Errorf("the notebook cannot be opened:\n%v", err)
 	}
@@ -286,7 +378,10 @@ func (s *server) answer(q *request) (map[string]any, error) {
 	case "preview":
 		return map[string]any{"html": markdown.Render(q.Text)}, nil
 	}
-	nb, problems, err := s.load(q)
+	if err := s.update(q); err != nil {
+		return nil, err
+	}
+	nb, problems, err := s.load()
 	if err != nil {
 		return nil, err
 	}
@@ -387,6 +482,7 @@ func (s *server) run(q *request, nb *notebook.Notebook, problems []string) (map[
 	if err != nil {
 		return nil, err
 	}
+	s.doc = doc
 	// Cells left out of an "only" run keep what the file says about them.
 	states := nb.States()
 	for i, o := range ev.Cells {
@@ -395,7 +491,33 @@ func (s *server) run(q *request, nb *notebook.Notebook, problems []string) (map[
 		}
 	}
 	out := s.views(nb, ev.Cells, problems)
-	out["doc"] = string(doc)
+	// The page merges what changed into its own copy: each cell's saved
+	// results and, after a recorded run, the history.
+	results := map[string]json.RawMessage{}
+	var saved struct {
+		Cells []struct {
+			ID      string          `json:"id"`
+			Results json.RawMessage `json:"results"`
+		} `json:"cells"`
+		History json.RawMessage `json:"history"`
+	}
+	if err := json.Unmarshal(doc, &saved); err != nil {
+		return nil, err
+	}
+	fresh := map[string]bool{}
+	for _, o := range ev.Cells {
+		// An overridden run (one value of a series) saves no results.
+		fresh[o.ID] = o.Status == notebook.StatusOK && q.Override == nil
+	}
+	for _, c := range saved.Cells {
+		if c.Results != nil && fresh[c.ID] {
+			results[c.ID] = c.Results
+		}
+	}
+	out["results"] = results
+	if q.Record != "" {
+		out["history"] = saved.History
+	}
 	out["canceled"] = ev.Canceled
 	return out, nil
 }

@@ -100,22 +100,32 @@ func TestProtocol(t *testing.T) {
 func TestRunRecordsAndCompares(t *testing.T) {
 	r := &recorder{}
 	s := newServer(r.post)
-	doc := study
+	var history []any
 	for i, k := range []float64{1, 2, 3} {
-		m := ask(t, s, r, map[string]any{"id": 10 + i, "op": "run", "doc": doc, "record": "k", "override": map[string]any{"cell": "base", "input": "k", "value": k}})
+		q := map[string]any{"id": 10 + i, "op": "run", "record": "k", "override": map[string]any{"cell": "base", "input": "k", "value": k}}
+		if i == 0 {
+			q["doc"] = study // once; the engine keeps its copy
+		}
+		m := ask(t, s, r, q)
 		if m["type"] != "done" {
 			t.Fatalf("run %v: %v", k, m)
 		}
-		doc = m["doc"].(string)
+		history, _ = m["history"].([]any)
+		if res, _ := m["results"].(map[string]any); len(res) != 0 {
+			t.Errorf("an overridden run saved results as the cells' own: %v", res)
+		}
 	}
-	nb, err := notebook.Load([]byte(doc))
+	if len(history) != 3 {
+		t.Fatalf("after three recorded runs the answer has %d runs", len(history))
+	}
+	nb, err := notebook.Load(s.doc)
 	if err != nil || len(nb.History) != 3 {
-		t.Fatalf("after three recorded runs: %v, %d runs", err, len(nb.History))
+		t.Fatalf("the engine's copy after three recorded runs: %v, %d runs", err, len(nb.History))
 	}
 	if nb.Cells[1].Saved != nil {
 		t.Error("an overridden run saved its results as the cell's own")
 	}
-	m := ask(t, s, r, map[string]any{"id": 20, "op": "compare", "doc": doc, "runs": []int{0, 1, 2}, "cell": "base", "table": "conv", "x": "h", "y": "e"})
+	m := ask(t, s, r, map[string]any{"id": 20, "op": "compare", "runs": []int{0, 1, 2}, "cell": "base", "table": "conv", "x": "h", "y": "e"})
 	csv, _ := m["csv"].(string)
 	lines := strings.Split(strings.TrimSpace(csv), "\n")
 	if len(lines) != 4 || !strings.Contains(lines[0], "base.k") || !strings.Contains(lines[0], "base.rate") {
@@ -147,5 +157,54 @@ func TestRunRecordsAndCompares(t *testing.T) {
 	}
 	if types["progress"] == 0 || types["cell"] == 0 {
 		t.Errorf("messages by type: %v", types)
+	}
+}
+
+// The page sends the notebook once and then cell-level edits: the engine's
+// copy follows them (a changed input, a new cell, a new order, a removed
+// cell), and a run's answer carries the saved results of the cells it
+// computed, not the whole document.
+func TestEditsChangeTheEnginesCopy(t *testing.T) {
+	r := &recorder{}
+	s := newServer(r.post)
+	if m := ask(t, s, r, map[string]any{"id": 1, "op": "show", "edit": map[string]any{"order": []string{}}}); m["type"] != "error" ||
+		!strings.Contains(m["error"].(string), "send the whole document first") {
+		t.Fatalf("an edit before any document: %v", m)
+	}
+	m := ask(t, s, r, map[string]any{"id": 2, "op": "run", "doc": study})
+	res, _ := m["results"].(map[string]any)
+	if m["type"] != "done" || len(res) == 0 || m["doc"] != nil {
+		t.Fatalf("run: %v", m)
+	}
+	nb, _ := notebook.Load([]byte(study))
+	ids := []string{}
+	for _, c := range nb.Cells {
+		ids = append(ids, c.ID)
+	}
+	base, _ := nb.Cell("base")
+	var cell map[string]any
+	b, _ := json.Marshal(map[string]any{"id": base.ID, "kind": base.Kind, "inputs": base.Inputs})
+	json.Unmarshal(b, &cell)
+	cell["inputs"].(map[string]any)["a"] = 2
+	extra := map[string]any{"id": "extra", "kind": "note", "inputs": map[string]any{"text": "hi"}}
+	order := append([]string{"extra"}, ids[:len(ids)-1]...)
+	m = ask(t, s, r, map[string]any{"id": 3, "op": "show", "edit": map[string]any{"cells": []any{cell, extra}, "order": order, "title": "edited"}})
+	if m["type"] != "done" || m["title"] != "edited" {
+		t.Fatalf("show after an edit: %v", m)
+	}
+	views := m["cells"].([]any)
+	if len(views) != len(order) || views[0].(map[string]any)["id"] != "extra" {
+		t.Fatalf("cells after the edit: %v", views)
+	}
+	if v := views[2].(map[string]any); v["id"] != "base" || v["status"] != "stale" {
+		t.Errorf("the edited cell is %v %v, want base stale (its input changed)", v["id"], v["status"])
+	}
+	for _, v := range views {
+		if v.(map[string]any)["id"] == ids[len(ids)-1] {
+			t.Errorf("cell %s was left out of the order but is still there", ids[len(ids)-1])
+		}
+	}
+	if m := ask(t, s, r, map[string]any{"id": 4, "op": "show", "edit": map[string]any{"order": []string{"nope"}}}); m["type"] != "error" {
+		t.Errorf("an order naming an unknown cell: %v", m)
 	}
 }

@@ -4,9 +4,16 @@
 //
 // # Protocol
 //
-// Every message is a JSON text. The page sends requests
+// Every message is a JSON text. The engine keeps its own copy of the
+// notebook: the page sends the whole file once per engine (and when a file
+// is opened), then only what changed, cell by cell:
 //
 //	{"id": 7, "op": "run", "doc": "<the .gapbook file text>", "only": ["solve"], "record": "p = 3"}
+//	{"id": 8, "op": "show", "edit": {"cells": [{"id": "problem", "kind": "problem", "inputs": {...}}], "order": ["about", "problem", ...]}}
+//
+// An edit's cells replace the cells with their ids (or are added); "order"
+// lists every cell id in order and drops the others; "title" and "history"
+// replace the notebook's when present.
 //
 // and the worker answers with messages carrying the same id and a type:
 //
@@ -26,8 +33,9 @@
 //
 // Operations: "show" (cell views from the saved results, no evaluation),
 // "run" (evaluate all cells or "only" some and the cells they need; the
-// answer carries the updated document with the new results saved and, when
-// "record" is set, a run appended to the history), "preview" (markdown of
+// answer carries "results", the saved results of each cell computed, and,
+// when "record" is set, the "history" with the new run appended; the
+// engine's copy is updated the same way), "preview" (markdown of
 // a note), "compare" (runs side by side: table and overlaid plot),
 // "report" (the printable page) and "csv" (a table of a cell as CSV).
 // Cancelling is the page's job: it terminates the worker and starts a new

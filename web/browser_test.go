@@ -443,9 +443,17 @@ func TestEditExponentInProblemCell(t *testing.T) {
 		return 0
 	}
 	before := major()
+	// The engine holds its own copy: the edit reaches it as one cell, not
+	// as the whole study.
+	eval[bool](tb, `(() => { const w = gapbook.worker, post = w.postMessage.bind(w); gapbook.sentLog = [];
+		w.postMessage = (m) => { if (typeof m === 'string') gapbook.sentLog.push(JSON.parse(m)); post(m); }; return true })()`)
 	eval[bool](tb, `(() => { const f = document.querySelector('#cell-problem [data-input="p"]');
 		f.value = '2.5'; f.dispatchEvent(new Event('change')); return true })()`)
 	tb.wait(`['mesh', 'solve', 'bound', 'newton'].every(id => document.getElementById('cell-' + id).dataset.status === 'stale')`)
+	sent := eval[string](tb, `JSON.stringify(gapbook.sentLog.map(m => [m.op, m.doc === undefined ? '' : 'doc', (m.edit && m.edit.cells || []).map(c => c.id).join(',')]))`)
+	if sent != `[["show","","problem"]]` {
+		t.Errorf("requests after editing one input: %s; want one show carrying the problem cell alone", sent)
+	}
 	if st := tb.statuses(); st["about"] != "ok" {
 		t.Errorf("the note went %q; only the problem and its dependents should change", st["about"])
 	}
@@ -503,7 +511,7 @@ func TestEditingCells(t *testing.T) {
 		return strings.Join(eval[[]string](tb, `[...document.querySelectorAll('.cell')].map(c => c.dataset.cell)`), " ")
 	}
 	// Duplicate base (Alt+C), move the copy down (Alt+↓), add a note (Alt+N).
-	eval[bool](tb, `(focusCell('base'), true)`)
+	eval[bool](tb, `(gapbook.api.focusCell('base'), true)`)
 	eval[bool](tb, key("c"))
 	tb.wait(`!!document.getElementById('cell-base-2')`)
 	eval[bool](tb, key("ArrowDown"))
@@ -524,7 +532,7 @@ func TestEditingCells(t *testing.T) {
 	}
 	tb.screenshot("editing")
 	// The printable report carries the caution and the cells.
-	rep := eval[string](tb, `ask('report', {doc: docText()}).then(r => r.html)`)
+	rep := eval[string](tb, `gapbook.api.ask('report').then(r => r.html)`)
 	for _, want := range []string{"Caution.", "licensed engineers", `id="cell-base-2"`, "Content-Security-Policy"} {
 		if !strings.Contains(rep, want) {
 			t.Errorf("report lacks %q", want)
@@ -542,14 +550,14 @@ func TestSaveReloadShareAutosave(t *testing.T) {
 	key := func(k string) string {
 		return `(document.dispatchEvent(new KeyboardEvent('keydown', {key: '` + k + `', altKey: true, bubbles: true})), true)`
 	}
-	eval[bool](tb, `(focusCell('intro'), true)`)
+	eval[bool](tb, `(gapbook.api.focusCell('intro'), true)`)
 	eval[bool](tb, key("Delete"))
 	tb.wait(`!document.getElementById('cell-intro')`)
 	eval[bool](tb, key("u"))
 	tb.wait(`!!document.getElementById('cell-intro') && document.querySelectorAll('.cell')[0].dataset.cell === 'intro'`)
 
 	// The saved file is a notebook that loads losslessly, results included.
-	saved := eval[string](tb, `docText()`)
+	saved := eval[string](tb, `gapbook.api.docText()`)
 	nb, err := notebook.Load([]byte(saved))
 	if err != nil {
 		t.Fatalf("the page saved a file that does not load: %v", err)
@@ -559,7 +567,7 @@ func TestSaveReloadShareAutosave(t *testing.T) {
 	}
 
 	// The page's "Standalone page" asks the server to assemble the file.
-	if page := eval[string](tb, `fetch('standalone', {method: 'POST', body: docText()}).then(r => r.text())`); !strings.Contains(page, `data-mode="standalone"`) || !strings.Contains(page, "Edited title") {
+	if page := eval[string](tb, `fetch('standalone', {method: 'POST', body: gapbook.api.docText()}).then(r => r.text())`); !strings.Contains(page, `data-mode="standalone"`) || !strings.Contains(page, "Edited title") {
 		t.Errorf("the standalone page made by the server: %.200s", page)
 	}
 
@@ -574,15 +582,15 @@ func TestSaveReloadShareAutosave(t *testing.T) {
 	}
 
 	// Share link round trip: a fresh profile state opens the same notebook.
-	eval[bool](tb, `shareLink().then(() => true)`)
-	link := eval[string](tb, `state.lastShare`)
+	eval[bool](tb, `gapbook.api.shareLink().then(() => true)`)
+	link := eval[string](tb, `gapbook.lastShare`)
 	if !strings.Contains(link, "#nb=") {
 		t.Fatalf("share link %q carries no notebook", link)
 	}
 	eval[bool](tb, `(localStorage.clear(), true)`)
 	tb.do(chromedp.Navigate("about:blank"))
 	tb.load(link)
-	got := eval[string](tb, `docText()`)
+	got := eval[string](tb, `gapbook.api.docText()`)
 	nb2, err := notebook.Load([]byte(got))
 	if err != nil {
 		t.Fatal(err)
@@ -641,7 +649,7 @@ func TestStandaloneFromDisk(t *testing.T) {
 			tb.screenshot("standalone-" + strings.TrimSuffix(filepath.Base(c.path), ".gapbook"))
 			if yes != total || total != strconv.Itoa(want) {
 				t.Errorf("reproduced %s of %s saved results, want %d of %d; differences: %s", yes, total, want, want,
-					eval[string](tb, `JSON.stringify([...state.views.values()].filter(v => v.reproduced !== 'yes').map(v => [v.id, v.reproduced, v.differences]))`))
+					eval[string](tb, `JSON.stringify([...gapbook.views.values()].filter(v => v.reproduced !== 'yes').map(v => [v.id, v.reproduced, v.differences]))`))
 			}
 		})
 	}
@@ -696,7 +704,7 @@ func TestCancelStopsAndPageStaysUsable(t *testing.T) {
 	tb.wait(`document.getElementById('cell-long').dataset.status !== 'running' && document.getElementById('stop').disabled`)
 	stopped := time.Since(start)
 	// The page is usable at once: a fresh engine computes another cell.
-	eval[bool](tb, `(runCells(['quick']), true)`)
+	eval[bool](tb, `(gapbook.api.runCells(['quick']), true)`)
 	tb.wait(`document.getElementById('cell-quick').dataset.status === 'ok'`)
 	usable := time.Since(start)
 	t.Logf("stop took %v; the next result came %v after the click", stopped, usable)
@@ -718,9 +726,9 @@ func TestEngineCrashKeepsNotebook(t *testing.T) {
 		t.Errorf("the cell that ended the engine is %q, want error", st)
 	}
 	// The notebook is intact and the fresh engine computes.
-	eval[bool](tb, `(runCells(['quick']), true)`)
+	eval[bool](tb, `(gapbook.api.runCells(['quick']), true)`)
 	tb.wait(`document.getElementById('cell-quick').dataset.status === 'ok'`)
-	if n := eval[int](tb, `state.doc.cells.length`); n != 2 {
+	if n := eval[int](tb, `gapbook.doc.cells.length`); n != 2 {
 		t.Errorf("after the crash the notebook has %d cells, want 2", n)
 	}
 	tb.screenshot("engine-crash")
@@ -729,7 +737,7 @@ func TestEngineCrashKeepsNotebook(t *testing.T) {
 func TestRunsPanelCompares(t *testing.T) {
 	tb := openTab(t, readFile(t, "testdata/study.gapbook"))
 	tb.load(tb.url)
-	eval[bool](tb, `(() => { document.getElementById('series-cell').value = 'base'; fillSeriesInputs();
+	eval[bool](tb, `(() => { document.getElementById('series-cell').value = 'base'; gapbook.api.fillSeriesInputs();
 		document.getElementById('series-input').value = 'k';
 		document.getElementById('series-values').value = '1, 2, 3';
 		document.getElementById('series-form').requestSubmit(); return true })()`)
@@ -790,12 +798,12 @@ func BenchmarkFirstResults(b *testing.B) {
 	for i := 0; i < b.N; i++ {
 		tb := openTab(b, doc)
 		tb.load(tb.url)
-		ms := eval[float64](tb, `state.firstResults`)
+		ms := eval[float64](tb, `gapbook.firstResults`)
 		b.ReportMetric(ms, "ms-to-first-results")
-		b.Logf("start stages (ms since navigation): %s", eval[string](tb, `JSON.stringify(state.marks)`))
+		b.Logf("start stages (ms since navigation): %s", eval[string](tb, `JSON.stringify(gapbook.marks)`))
 		// One cold evaluation in the worker (after a warm-up), against native.
-		wasm := eval[float64](tb, `(async () => { await ask('run', {doc: docText()}); restartWorker(); await state.ready;
-			const t = performance.now(); await ask('run', {doc: docText()}); return performance.now() - t })()`)
+		wasm := eval[float64](tb, `(async () => { const a = gapbook.api; await a.ask('run', {doc: a.docText()}); a.restartWorker(); await gapbook.ready;
+			const t = performance.now(); await a.ask('run', {doc: a.docText()}); return performance.now() - t })()`)
 		nb, _ := notebook.Load(doc)
 		start := time.Now()
 		notebook.NewEngine().Evaluate(context.Background(), nb, notebook.Options{})

@@ -218,8 +218,11 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 		return nil, err
 	}
 	var parts [4]string
-	for i, name := range []string{"app.js", "worker.js", "wasm_exec.js", "style.css"} {
-		if parts[i], err = read(name); err != nil {
+	if parts[0], err = joinModules(read); err != nil {
+		return nil, err
+	}
+	for i, name := range []string{"worker.js", "wasm_exec.js", "style.css"} {
+		if parts[i+1], err = read(name); err != nil {
 			return nil, err
 		}
 	}
@@ -235,7 +238,7 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 	// JSON allows \u003c for "<" inside strings, and "<" occurs nowhere else,
 	// so the notebook cannot close its block.
 	docText := strings.ReplaceAll(string(doc), "<", `\u003c`)
-	const boot = `(()=>{const s=document.createElement('script');s.src=URL.createObjectURL(new Blob([document.getElementById('src-app').textContent],{type:'text/javascript'}));document.head.append(s);})();`
+	const boot = `(()=>{const s=document.createElement('script');s.type='module';s.src=URL.createObjectURL(new Blob([document.getElementById('src-app').textContent],{type:'text/javascript'}));document.head.append(s);})();`
 	sum := sha256.Sum256([]byte(boot))
 	csp := "default-src 'none'; script-src 'sha256-" + base64.StdEncoding.EncodeToString(sum[:]) + "' blob: 'wasm-unsafe-eval'; " +
 		"worker-src blob:; style-src 'unsafe-inline'; img-src data: blob:; connect-src 'none'; base-uri 'none'; form-action 'none'; object-src 'none'"
@@ -252,7 +255,7 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 		`<html lang="en" data-mode="served">`, `<html lang="en" data-mode="standalone">`,
 		`<meta charset="utf-8">`, `<meta charset="utf-8">`+"\n"+`<meta http-equiv="Content-Security-Policy" content="`+csp+`">`,
 		`<link rel="stylesheet" href="style.css">`, "<style>\n"+parts[3]+"</style>",
-		`<script src="app.js" defer></script>`, "",
+		`<script type="module" src="main.js"></script>`, "",
 		"<!--/BODY-->", b.String(),
 		"<!--BODY-->", "",
 	)
@@ -265,10 +268,40 @@ func readPage(assets fs.FS) (string, error) {
 		return "", err
 	}
 	s := string(b)
-	for _, marker := range []string{`data-mode="served"`, `<link rel="stylesheet" href="style.css">`, `<script src="app.js" defer></script>`, "<!--/BODY-->"} {
+	for _, marker := range []string{`data-mode="served"`, `<link rel="stylesheet" href="style.css">`, `<script type="module" src="main.js"></script>`, "<!--/BODY-->"} {
 		if !strings.Contains(s, marker) {
 			return "", fmt.Errorf("index.html: marker %q not found; the standalone page cannot be assembled", marker)
 		}
 	}
 	return s, nil
+}
+
+// Modules are the page's script modules in an order in which each one's
+// top-level names are defined before the last one (main.js) runs.
+var Modules = []string{"state.js", "bridge.js", "plots.js", "cells.js", "compute.js", "runs.js", "files.js", "main.js"}
+
+// joinModules makes one module of the page's modules for the standalone
+// page, whose script comes from a blob and cannot import its neighbours:
+// the import lines are dropped and "export " taken off the declarations.
+// The modules import only each other and share one top-level name space,
+// which TestModulesJoin checks.
+func joinModules(read func(string) (string, error)) (string, error) {
+	var b strings.Builder
+	for _, name := range Modules {
+		src, err := read(name)
+		if err != nil {
+			return "", err
+		}
+		for _, line := range strings.SplitAfter(src, "\n") {
+			switch {
+			case strings.HasPrefix(line, "import "):
+				continue
+			case strings.HasPrefix(line, "export "):
+				line = strings.TrimPrefix(line, "export ")
+			}
+			b.WriteString(line)
+		}
+		b.WriteString("\n")
+	}
+	return b.String(), nil
 }

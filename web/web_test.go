@@ -7,6 +7,7 @@ import (
 	"io/fs"
 	"net/http"
 	"net/http/httptest"
+	"regexp"
 	"strings"
 	"testing"
 	"testing/fstest"
@@ -17,7 +18,7 @@ import (
 // pageOnly is the page without a built engine, as in a fresh clone.
 func pageOnly(t *testing.T) fs.FS {
 	m := fstest.MapFS{}
-	for _, name := range []string{"index.html", "app.js", "worker.js", "style.css"} {
+	for _, name := range append([]string{"index.html", "worker.js", "style.css"}, web.Modules...) {
 		b, err := fs.ReadFile(web.Assets(), name)
 		if err != nil {
 			t.Fatal(err)
@@ -37,8 +38,9 @@ func TestHandler(t *testing.T) {
 		body   string // substring
 		ctype  string
 	}{
-		{"/", 200, `<script src="app.js" defer></script>`, "text/html"},
-		{"/app.js", 200, "'use strict'", "javascript"},
+		{"/", 200, `<script type="module" src="main.js"></script>`, "text/html"},
+		{"/main.js", 200, "import {", "javascript"},
+		{"/bridge.js", 200, "export async function ask", "javascript"},
 		{"/notebook.gapbook", 200, `"title": "x"`, "application/json"},
 		{"/gapbook.wasm", 404, "make wasm", "text/plain"},
 		{"/standalone", 405, "POST", "text/plain"},
@@ -64,9 +66,9 @@ func TestHandler(t *testing.T) {
 		}
 	}
 	// A second request with the tag of the first is answered "not modified".
-	r, _ := http.Get(srv.URL + "/app.js")
+	r, _ := http.Get(srv.URL + "/main.js")
 	r.Body.Close()
-	req, _ := http.NewRequest("GET", srv.URL+"/app.js", nil)
+	req, _ := http.NewRequest("GET", srv.URL+"/main.js", nil)
 	req.Header.Set("If-None-Match", r.Header.Get("ETag"))
 	if r2, err := http.DefaultClient.Do(req); err != nil || r2.StatusCode != http.StatusNotModified || r.Header.Get("ETag") == "" {
 		t.Errorf("revalidation with ETag %q: %v %v", r.Header.Get("ETag"), r2.StatusCode, err)
@@ -104,12 +106,71 @@ func TestStandalonePage(t *testing.T) {
 			t.Errorf("standalone page lacks %q", want)
 		}
 	}
-	for _, bad := range []string{`src="app.js"`, `href="style.css"`, "<!--BODY-->"} {
+	for _, bad := range []string{`src="main.js"`, `href="style.css"`, "<!--BODY-->", "\nimport {", "\nexport "} {
 		if strings.Contains(s, bad) {
 			t.Errorf("standalone page still has %q", bad)
 		}
 	}
 	if _, err := web.Standalone([]byte(`{"gapbook": 1, "cells": [{"id": "x"`), m); err == nil {
 		t.Error("a broken notebook was embedded")
+	}
+}
+
+// The page's modules can be joined into the one script of the standalone
+// page: every script module is listed, each imports only listed modules
+// and names they export, and no two modules declare the same top-level
+// name.
+func TestModulesJoin(t *testing.T) {
+	listed := map[string]bool{}
+	for _, m := range web.Modules {
+		listed[m] = true
+	}
+	entries, err := fs.ReadDir(web.Assets(), ".")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range entries {
+		if n := e.Name(); strings.HasSuffix(n, ".js") && n != "worker.js" && n != "wasm_exec.js" && !listed[n] {
+			t.Errorf("%s is not in web.Modules: the standalone page would lack it", n)
+		}
+	}
+	decl := regexp.MustCompile(`(?m)^(export )?(async function|function|const|let) ([A-Za-z_$][\w$]*)`)
+	imp := regexp.MustCompile(`(?m)^import \{ ([^}]*) \} from '\./([a-z]+\.js)';$`)
+	exported := map[string]map[string]bool{}
+	owner := map[string]string{}
+	srcs := map[string]string{}
+	for _, m := range web.Modules {
+		b, err := fs.ReadFile(web.Assets(), m)
+		if err != nil {
+			t.Fatal(err)
+		}
+		srcs[m] = string(b)
+		exported[m] = map[string]bool{}
+		for _, d := range decl.FindAllStringSubmatch(string(b), -1) {
+			if o, dup := owner[d[3]]; dup {
+				t.Errorf("%s and %s both declare %s", o, m, d[3])
+			}
+			owner[d[3]] = m
+			if d[1] != "" {
+				exported[m][d[3]] = true
+			}
+		}
+	}
+	for _, m := range web.Modules {
+		for _, line := range strings.Split(srcs[m], "\n") {
+			if !strings.HasPrefix(line, "import ") {
+				continue
+			}
+			g := imp.FindStringSubmatch(line)
+			if g == nil || !listed[g[2]] {
+				t.Errorf("%s: %q is not an import of a listed module on one line", m, line)
+				continue
+			}
+			for _, name := range strings.Split(g[1], ", ") {
+				if !exported[g[2]][name] {
+					t.Errorf("%s imports %s from %s, which does not export it", m, name, g[2])
+				}
+			}
+		}
 	}
 }
