@@ -128,49 +128,69 @@ type Evolution struct {
 	// gp is D_G by closed form for the power family (convex.Gap otherwise);
 	// the true error terms keep convex.Gap so that they stay independent.
 	gp gapper
+	evolutionRules
+	evolutionScratch
+	evolutionSums
+	evolutionSafeguard
+	evolutionReuse
+}
+
+// evolutionRules are the quadrature rules of the space-time integrals and
+// their points, fixed when the accumulator is made.
+type evolutionRules struct {
 	// exactGap says the gap rules were chosen exact for a quadratic G.
 	exactGap bool
-	// scratch
-	g0, g1     [][2]float64
-	d          []float64
-	cpConj     []float64
-	rule       fem.Rule
-	tx, tw     []float64
-	rbuf, wbuf []float64
+	rule     fem.Rule
+	tx, tw   []float64
 	// per point of the space rule: barycentric coordinates and weight
-	// (times the reference measure); per Gauss time point: sums, weights,
-	// ∇v, its gap data and the cell gap; per Simpson time point: sums
+	// (times the reference measure)
 	lam [][3]float64
 	pw  []float64
 	// the same for the rule of the residual terms
-	rrule  fem.Rule
-	rlam   [][3]float64
-	rpw    []float64
+	rrule fem.Rule
+	rlam  [][3]float64
+	rpw   []float64
+	// the rule of the true error terms against an exact solution
+	exRule     fem.Rule
+	exTx, exTw []float64
+	// x^α for the norms of ∇v; split says that the gap of a flux constant
+	// in time is summed in its separated form (power potential, α ≠ 2);
+	// dualPow is x^{α'}
+	powAlpha power
+	split    bool
+	dualPow  power
+	// shareLoad says the flux projection uses the residual rule and can
+	// fill the load cache
+	shareLoad bool
+}
+
+// evolutionScratch is reused by every step: per-cell and per-point
+// buffers, and the samples of f at two times.
+type evolutionScratch struct {
+	g0, g1     [][2]float64
+	d          []float64
+	cpConj     []float64
+	rbuf, wbuf []float64
+	// per Gauss time point: sums, weights, ∇v, its gap data and the cell
+	// gap; per Simpson time point: sums
 	tsums  []slabSums
 	tnorms []float64
 	twt    []float64
 	tg     [][2]float64
 	tgc    []gapCell
 	tdk    []float64
-	// y* at the space rule's points of one cell at the step's ends, and
-	// x^α for the norms of ∇v
+	rsums  [3]slabSums
+	// y* at the space rule's points of one cell at the step's ends
 	yStart, yEnd [][2]float64
 	ydiv         []float64
-	powAlpha     power
-	// split says that the gap of a flux constant in time is summed in its
-	// separated form (power potential, α ≠ 2); dualPow is x^{α'}
-	split   bool
-	dualPow power
-	rsums   [3]slabSums
-	// f at the space rule's points at two times (loadCache); shareLoad
-	// says the flux projection uses the same rule and can fill them
-	loads     [2]loadCache
-	shareLoad bool
+	// f at the space rule's points at two times
+	loads [2]loadCache
 	// stepT0 and stepT1 are the ends of the step being added
 	stepT0, stepT1 float64
-	exRule         fem.Rule
-	exTx, exTw     []float64
-	// accumulators
+}
+
+// evolutionSums accumulate the terms of the bounds over the steps so far.
+type evolutionSums struct {
 	steps              int
 	t0, t1             float64
 	initial            float64
@@ -185,13 +205,19 @@ type Evolution struct {
 	exact              ExactTerms
 	primal, dual, gapE float64
 	flux               Flux
-	// quadrature safeguard of the gap: per-cell slab gap by the fixed rule
-	// and the samples of y* (α > 2) or ∇v (α < 2) that decide where the
-	// integrand may not be smooth
+}
+
+// evolutionSafeguard is the quadrature safeguard of the gap: per-cell slab
+// gap by the fixed rule and the samples of y* (α > 2) or ∇v (α < 2) that
+// decide where the integrand may not be smooth.
+type evolutionSafeguard struct {
 	cellGap        []float64
 	samples        [][][2]float64
 	watchY, watchG bool
-	// reuse across steps of the equilibrated flux (2-D)
+}
+
+// evolutionReuse carries the equilibrated flux (2-D) from step to step.
+type evolutionReuse struct {
 	eq           *equilibrator
 	last         *Equilibrated // end flux of the latest step
 	dPrev, vPrev []float64
@@ -248,7 +274,7 @@ func NewEvolution(s *fem.P1, p *problem.Problem, o EvolutionOptions) (*Evolution
 	if o.InTime != ConstantInTime && o.InTime != LinearInTime {
 		return nil, fmt.Errorf("evolution bounds: unknown time form %d", o.InTime)
 	}
-	b := &Evolution{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1), exactGap: exact}
+	b := &Evolution{s: s, p: p, o: o, alpha: alpha, conj: alpha / (alpha - 1), evolutionRules: evolutionRules{exactGap: exact}}
 	if o.Kind == EquilibratedFlux && o.Split == 1 && (o.Equilibrate.Degree == 0 || o.Equilibrate.Degree == o.LoadDegree) {
 		// The projection of f onto P_k then samples f where the slab does,
 		// and its samples at t_n serve both steps next to t_n.
