@@ -9,54 +9,27 @@ package convex
 
 import "math"
 
-// Label says how far a number can be trusted.
-type Label int
+// Label says how far a number can be trusted. It is the one label type of
+// gapbook: the bounds carry it and the notebook shows and saves it as its
+// text. The zero value is no label, which no result may carry.
+type Label string
 
 const (
 	// Guaranteed numbers are true bounds up to floating point and the
 	// reported quadrature.
-	Guaranteed Label = iota
+	Guaranteed Label = "guaranteed"
 	// Estimate numbers are computed approximations without a proof of bound.
-	Estimate
+	Estimate Label = "estimate"
 	// Reference numbers are published or independently computed values used
-	// for comparison.
-	Reference
+	// for comparison (an exact solution, an input, exact geometry, a count).
+	Reference Label = "reference"
 )
 
 // String returns "guaranteed", "estimate" or "reference".
-func (l Label) String() string {
-	switch l {
-	case Guaranteed:
-		return "guaranteed"
-	case Estimate:
-		return "estimate"
-	case Reference:
-		return "reference"
-	}
-	return "label(" + itoa(int(l)) + ")"
-}
+func (l Label) String() string { return string(l) }
 
-func itoa(i int) string {
-	if i == 0 {
-		return "0"
-	}
-	neg := i < 0
-	if neg {
-		i = -i
-	}
-	var b [20]byte
-	n := len(b)
-	for i > 0 {
-		n--
-		b[n] = byte('0' + i%10)
-		i /= 10
-	}
-	if neg {
-		n--
-		b[n] = '-'
-	}
-	return string(b[n:])
-}
+// Valid reports whether l is one of the three labels.
+func (l Label) Valid() bool { return l == Guaranteed || l == Estimate || l == Reference }
 
 // Potential is a radial convex potential G(ξ) = g(|ξ|) with g convex,
 // increasing, g(0) = g'(0) = 0 and superlinear growth of order Growth().

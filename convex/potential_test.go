@@ -48,11 +48,12 @@ func catalogue() []Potential {
 
 func TestLabelString(t *testing.T) {
 	for _, c := range []struct {
-		l    Label
-		want string
-	}{{Guaranteed, "guaranteed"}, {Estimate, "estimate"}, {Reference, "reference"}, {Label(7), "label(7)"}} {
-		if got := c.l.String(); got != c.want {
-			t.Errorf("Label(%d).String() = %q, want %q", int(c.l), got, c.want)
+		l     Label
+		want  string
+		valid bool
+	}{{Guaranteed, "guaranteed", true}, {Estimate, "estimate", true}, {Reference, "reference", true}, {"", "", false}, {"sure", "sure", false}} {
+		if got := c.l.String(); got != c.want || c.l.Valid() != c.valid {
+			t.Errorf("Label %q: String %q, Valid %v; want %q, %v", string(c.l), got, c.l.Valid(), c.want, c.valid)
 		}
 	}
 }

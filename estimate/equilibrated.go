@@ -289,10 +289,7 @@ func (e *Equilibrated) project(s *fem.P1, f Source, degree int) error {
 		var b [3]float64
 		var mean float64
 		for q, p := range r.Points {
-			lam := [3]float64{1 - p[0] - p[1], p[0], p[1]}
-			if m.Dim == 1 {
-				lam = [3]float64{1 - p[0], p[0], 0}
-			}
+			lam, _ := cellPoint(m.Dim, p)
 			fv := f(k, lam)
 			if math.IsNaN(fv) || math.IsInf(fv, 0) {
 				x, y := eqPoint(m, k, lam)

@@ -49,15 +49,16 @@ func GradientError(s *fem.P1, v []float64, grad func(x, y float64) (float64, flo
 	return math.Pow(sum(per), 1/alpha)
 }
 
-// PrimalError returns μ(v) = ∫ D_G(∇v, ∂G(∇u)) = J(v) − J(u) per cell, by
-// quadrature of degree ErrorDegree.
-func PrimalError(s *fem.P1, G convex.Potential, v []float64, grad func(x, y float64) (float64, float64)) []float64 {
+// PrimalError returns μ(v) = ∫ D_G(∇v, ∂G(∇u)) = J(v) − J(u), in total and
+// per cell, by quadrature of degree ErrorDegree.
+func PrimalError(s *fem.P1, G convex.Potential, v []float64, grad func(x, y float64) (float64, float64)) (total float64, cells []float64) {
 	gv := make([][2]float64, s.Mesh.NumCells())
 	s.Gradient(v, gv)
-	return cellIntegral(s, ErrorDegree, func(k int, x, y float64) float64 {
+	cells = cellIntegral(s, ErrorDegree, func(k int, x, y float64) float64 {
 		gx, gy := grad(x, y)
 		return convex.Gap(G, gv[k], convex.Flux(G, [2]float64{gx, gy}))
 	})
+	return sum(cells), cells
 }
 
 // DualError returns μ*(y*) = ∫ D_G(∇u, y*) by quadrature of the given

@@ -540,7 +540,7 @@ func newStream(s *fem.P1, rt *fem.RT0, order int) (*stream, error) {
 	nq := st.rule.Len()
 	st.lams = make([][3]float64, nq)
 	for q, p := range st.rule.Points {
-		st.lams[q] = [3]float64{1 - p[0] - p[1], p[0], p[1]}
+		st.lams[q], _ = cellPoint(2, p)
 	}
 	st.coef = make([][3]float64, nc)
 	st.hess = make([][3]float64, nc)
@@ -765,7 +765,8 @@ func (e *Equilibrated) gapIntegral(s *fem.P1, G convex.Potential, grad [][2]floa
 	var sum float64
 	for k := range s.Area {
 		for q, p := range r.Points {
-			y, _ := e.At(k, [3]float64{1 - p[0] - p[1], p[0], p[1]})
+			lam, _ := cellPoint(2, p)
+			y, _ := e.At(k, lam)
 			sum += 2 * s.Area[k] * r.Weights[q] * convex.Gap(G, grad[k], y)
 		}
 	}

@@ -9,24 +9,24 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+
+	"gapbook/convex"
 )
 
-// Label says how far a scalar result can be trusted.
-type Label string
+// Label says how far a result can be trusted: convex.Label, the one label
+// type, saved as its text.
+type Label = convex.Label
 
-// The three labels a scalar result may carry.
+// The three labels a result may carry (docs/math.md §8).
 const (
 	// Guaranteed: a proven bound of the mathematical model as entered.
-	Guaranteed Label = "guaranteed"
+	Guaranteed = convex.Guaranteed
 	// Estimate: a computed value without a proof of its accuracy.
-	Estimate Label = "estimate"
+	Estimate = convex.Estimate
 	// Reference: a value from outside the computation (an exact solution,
 	// a published value) used for comparison.
-	Reference Label = "reference"
+	Reference = convex.Reference
 )
-
-// Valid reports whether l is one of the three labels.
-func (l Label) Valid() bool { return l == Guaranteed || l == Estimate || l == Reference }
 
 // Scalar is one named, labelled number.
 type Scalar struct {
@@ -225,6 +225,16 @@ func (r *Results) Table(name string) (*Table, bool) {
 func (r *Results) Check() []Diagnostic {
 	var ps []Diagnostic
 	add := func(path, f string, a ...any) { ps = append(ps, Diagnostic{path, fmt.Sprintf(f, a...)}) }
+	r.checkScalars(add)
+	r.checkIntervals(add)
+	r.checkTables(add)
+	r.checkPlots(add)
+	r.checkFields(add)
+	return ps
+}
+
+// checkScalars checks that names are unique and non-empty and labels valid.
+func (r *Results) checkScalars(add func(path, f string, a ...any)) {
 	seen := map[string]bool{}
 	for i, s := range r.Scalars {
 		p := fmt.Sprintf("scalars[%d]", i)
@@ -239,6 +249,10 @@ func (r *Results) Check() []Diagnostic {
 			add(p+".label", "want guaranteed, estimate or reference, got %q", string(s.Label))
 		}
 	}
+}
+
+// checkIntervals checks that each interval restates two scalars of the cell.
+func (r *Results) checkIntervals(add func(path, f string, a ...any)) {
 	names := map[string]bool{}
 	for i, iv := range r.Intervals {
 		p := fmt.Sprintf("intervals[%d]", i)
@@ -260,6 +274,10 @@ func (r *Results) Check() []Diagnostic {
 			add(p+".label", "want %s, the weaker label of its ends, got %q", weaker(lo.Label, hi.Label), string(iv.Label))
 		}
 	}
+}
+
+// checkTables checks that every row is as long as the columns, with a label per row if any.
+func (r *Results) checkTables(add func(path, f string, a ...any)) {
 	for i, t := range r.Tables {
 		p := fmt.Sprintf("tables[%d]", i)
 		if t.Name == "" {
@@ -274,6 +292,10 @@ func (r *Results) Check() []Diagnostic {
 			}
 		}
 	}
+}
+
+// checkPlots checks that every series has as many x values as y values.
+func (r *Results) checkPlots(add func(path, f string, a ...any)) {
 	for i, pl := range r.Plots {
 		p := fmt.Sprintf("plots[%d]", i)
 		if pl.Name == "" {
@@ -285,6 +307,10 @@ func (r *Results) Check() []Diagnostic {
 			}
 		}
 	}
+}
+
+// checkFields checks that coordinates, triangles and values fit together.
+func (r *Results) checkFields(add func(path, f string, a ...any)) {
 	for i, f := range r.Fields {
 		p := fmt.Sprintf("fields[%d]", i)
 		if f.Name == "" {
@@ -310,7 +336,6 @@ func (r *Results) Check() []Diagnostic {
 			add(p+".values", "has %d values, want %d, %s", len(f.Values), want, what)
 		}
 	}
-	return ps
 }
 
 // DigestDigits is the number of significant digits at which numbers enter

@@ -198,3 +198,79 @@ func (d *Domain) Diameter() float64 {
 	}
 	return dm
 }
+
+// side is one named piece of the boundary: the segment from A to B (in
+// 1-D the point A = B).
+type side struct {
+	name string
+	a, b mesh.Point
+}
+
+// sides lists the boundary of the domain as named segments: the sides of
+// the built-in shapes, the edges of a polygon, the one boundary of the disk
+// polygon (all its sides).
+func (d *Domain) sides() []side {
+	P := func(x, y float64) mesh.Point { return mesh.Point{X: x, Y: y} }
+	switch d.Shape {
+	case Interval:
+		return []side{{"left", P(d.X0, 0), P(d.X0, 0)}, {"right", P(d.X1, 0), P(d.X1, 0)}}
+	case Rectangle:
+		return []side{{"bottom", P(d.X0, d.Y0), P(d.X1, d.Y0)}, {"right", P(d.X1, d.Y0), P(d.X1, d.Y1)},
+			{"top", P(d.X1, d.Y1), P(d.X0, d.Y1)}, {"left", P(d.X0, d.Y1), P(d.X0, d.Y0)}}
+	case LShape:
+		return []side{{"bottom", P(-1, -1), P(0, -1)}, {"notch-vertical", P(0, -1), P(0, 0)},
+			{"notch-horizontal", P(0, 0), P(1, 0)}, {"right", P(1, 0), P(1, 1)},
+			{"top", P(1, 1), P(-1, 1)}, {"left", P(-1, 1), P(-1, -1)}}
+	case Disk:
+		var out []side
+		for j := range d.Sides {
+			a0, a1 := 2*math.Pi*float64(j)/float64(d.Sides), 2*math.Pi*float64(j+1)/float64(d.Sides)
+			out = append(out, side{"boundary", P(d.Radius*math.Cos(a0), d.Radius*math.Sin(a0)), P(d.Radius*math.Cos(a1), d.Radius*math.Sin(a1))})
+		}
+		return out
+	}
+	out := make([]side, len(d.Vertices))
+	for i, v := range d.Vertices {
+		out[i] = side{fmt.Sprintf("edge%d", i+1), v, d.Vertices[(i+1)%len(d.Vertices)]}
+	}
+	return out
+}
+
+// Parts names the boundary parts of the domain in order around it: left
+// and right of an interval; bottom, right, top and left of a rectangle;
+// the six sides of the L-shape (bottom, notch-vertical, notch-horizontal,
+// right, top, left); the one boundary of the disk polygon; edge1, edge2, …
+// of a polygon, edge i running from vertex i to vertex i+1.
+func (d *Domain) Parts() []string {
+	var out []string
+	for _, s := range d.sides() {
+		if len(out) == 0 || out[len(out)-1] != s.name {
+			out = append(out, s.name)
+		}
+	}
+	return out
+}
+
+// PartOf returns the boundary part that holds the segment from a to b (a
+// boundary edge of a mesh of the domain; in 1-D a = b is an end point), or
+// "" when it lies on no part.
+func (d *Domain) PartOf(a, b mesh.Point) string {
+	tol := 1e-9 * math.Max(d.Diameter(), 1e-300)
+	for _, s := range d.sides() {
+		if onSegment(a, s.a, s.b, tol) && onSegment(b, s.a, s.b, tol) {
+			return s.name
+		}
+	}
+	return ""
+}
+
+// onSegment reports whether p lies within tol of the segment from a to b.
+func onSegment(p, a, b mesh.Point, tol float64) bool {
+	dx, dy := b.X-a.X, b.Y-a.Y
+	l2 := dx*dx + dy*dy
+	t := 0.0
+	if l2 > 0 {
+		t = math.Max(0, math.Min(1, ((p.X-a.X)*dx+(p.Y-a.Y)*dy)/l2))
+	}
+	return math.Hypot(p.X-(a.X+t*dx), p.Y-(a.Y+t*dy)) <= tol
+}

@@ -233,36 +233,8 @@ func New(s Spec) (*Problem, error) {
 		return nil, err
 	}
 	p := &Problem{Domain: d, T: s.T, FConst: math.NaN(), Family: s.Family}
-	alpha := s.P
-	field := "p"
-	switch s.Family {
-	case Power:
-		p.G, err = convex.Power(alpha)
-	case Quad:
-		field = "kappa"
-		p.G, err = convex.Quadratic(s.Kappa)
-	case RegPower:
-		p.G, err = convex.RegPower(alpha, s.Epsilon)
-	case PowerSum:
-		if alpha <= 2 {
-			return nil, inputErr("p", "want p > 2 for the power sum (a t²/2 is its quadratic part), got %g", alpha)
-		}
-		p.G, err = convex.PowerSum(s.A, s.B, alpha)
-	case Formula:
-		field = "g"
-		if strings.TrimSpace(s.G) == "" {
-			return nil, inputErr("g", "empty; the formula potential needs g(t), for example t^3/3")
-		}
-		gf, perr := expr.Parse(s.G, "t")
-		if perr != nil {
-			return nil, inputErr("g", "%s", FormulaMessage(perr))
-		}
-		p.G, err = convex.Custom("g(t) = "+s.G, func(t float64) (float64, float64, float64) { return gf.Scalar(t) }, alpha)
-	default:
-		return nil, inputErr("potential", "unknown family %q; known: %s", s.Family, strings.Join(Families, ", "))
-	}
-	if err != nil {
-		return nil, inputErr(field, "%v", err)
+	if p.G, err = potential(s); err != nil {
+		return nil, err
 	}
 	vars := []string{"x", "y"}
 	if d.Dim() == 1 {
@@ -308,6 +280,45 @@ func New(s Spec) (*Problem, error) {
 	}
 	p.Summary = summary(p, d, exact)
 	return p, nil
+}
+
+// potential builds the potential of a statement, blaming the input at
+// fault.
+func potential(s Spec) (convex.Potential, error) {
+	var G convex.Potential
+	var err error
+	alpha := s.P
+	field := "p"
+	switch s.Family {
+	case Power:
+		G, err = convex.Power(alpha)
+	case Quad:
+		field = "kappa"
+		G, err = convex.Quadratic(s.Kappa)
+	case RegPower:
+		G, err = convex.RegPower(alpha, s.Epsilon)
+	case PowerSum:
+		if alpha <= 2 {
+			return nil, inputErr("p", "want p > 2 for the power sum (a t²/2 is its quadratic part), got %g", alpha)
+		}
+		G, err = convex.PowerSum(s.A, s.B, alpha)
+	case Formula:
+		field = "g"
+		if strings.TrimSpace(s.G) == "" {
+			return nil, inputErr("g", "empty; the formula potential needs g(t), for example t^3/3")
+		}
+		gf, perr := expr.Parse(s.G, "t")
+		if perr != nil {
+			return nil, inputErr("g", "%s", FormulaMessage(perr))
+		}
+		G, err = convex.Custom("g(t) = "+s.G, func(t float64) (float64, float64, float64) { return gf.Scalar(t) }, alpha)
+	default:
+		return nil, inputErr("potential", "unknown family %q; known: %s", s.Family, strings.Join(Families, ", "))
+	}
+	if err != nil {
+		return nil, inputErr(field, "%v", err)
+	}
+	return G, nil
 }
 
 func summary(p *Problem, d *Domain, exact *expr.Formula) string {

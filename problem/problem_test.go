@@ -5,6 +5,8 @@ import (
 	"math"
 	"strings"
 	"testing"
+
+	"gapbook/mesh"
 )
 
 // The built-in domains against exact geometry (common practice, no
@@ -102,5 +104,57 @@ func TestNewData(t *testing.T) {
 	}
 	if q.FConst != 2.5 || !q.ZeroDirichlet() || q.Domain.Dim() != 1 || q.Exponent() != 3 {
 		t.Errorf("FConst %g, zero data %v, dim %d, p %g", q.FConst, q.ZeroDirichlet(), q.Domain.Dim(), q.Exponent())
+	}
+}
+
+// Every boundary edge of a mesh lies on one named part, and the edges of
+// each part add up to its exact length (geometry, common practice, no
+// source); the end points of an interval are its parts.
+func TestBoundaryParts(t *testing.T) {
+	cases := []struct {
+		s     DomainSpec
+		parts map[string]float64
+	}{
+		{DomainSpec{Shape: Rectangle, X0: 0, X1: 3, Y0: 1, Y1: 5}, map[string]float64{"bottom": 3, "right": 4, "top": 3, "left": 4}},
+		{DomainSpec{Shape: LShape}, map[string]float64{"bottom": 1, "notch-vertical": 1, "notch-horizontal": 1, "right": 1, "top": 2, "left": 2}},
+		{DomainSpec{Shape: Disk, Radius: 2, Sides: 6}, map[string]float64{"boundary": 12}},
+		{DomainSpec{Shape: Polygon, Coords: []float64{0, 0, 2, 0, 2, 2, 1, 1, 0, 2}}, map[string]float64{"edge1": 2, "edge2": 2, "edge3": math.Sqrt2, "edge4": math.Sqrt2, "edge5": 2}},
+	}
+	for _, c := range cases {
+		d, err := NewDomain(c.s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := d.Parts(); len(got) != len(c.parts) {
+			t.Errorf("%s: parts %v, want %d", d, got, len(c.parts))
+		}
+		m, err := d.Mesh(6, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if m, err = m.Refine(); err != nil {
+			t.Fatal(err)
+		}
+		length := map[string]float64{}
+		for _, e := range m.BoundaryEdges {
+			a, b := m.Nodes[e[0]], m.Nodes[e[1]]
+			part := d.PartOf(a, b)
+			if part == "" {
+				t.Fatalf("%s: boundary edge %v–%v on no part", d, a, b)
+			}
+			length[part] += math.Hypot(b.X-a.X, b.Y-a.Y)
+		}
+		for name, want := range c.parts {
+			if math.Abs(length[name]-want) > 1e-12*want {
+				t.Errorf("%s: part %s has length %.15g, want %.15g", d, name, length[name], want)
+			}
+		}
+		if d.PartOf(mesh.Point{X: 1e6, Y: 1e6}, mesh.Point{X: 1e6, Y: 2e6}) != "" {
+			t.Errorf("%s: a segment far away lies on a part", d)
+		}
+	}
+	d, _ := NewDomain(DomainSpec{Shape: Interval, X0: -1, X1: 2})
+	if got := d.Parts(); len(got) != 2 || d.PartOf(mesh.Point{X: -1}, mesh.Point{X: -1}) != "left" || d.PartOf(mesh.Point{X: 2}, mesh.Point{X: 2}) != "right" {
+		t.Errorf("interval parts %v", got)
 	}
 }

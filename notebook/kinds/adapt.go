@@ -131,14 +131,14 @@ func adaptResults(p *problem.Problem, run *estimate.AdaptRun, cf estimate.Consta
 		if mf != nil {
 			s, _ := fem.NewP1(st.Mesh)
 			_, _, grad := mf.At(0)
-			mu := sum(estimate.PrimalError(s, p.G, st.V, grad))
+			mu, _ := estimate.PrimalError(s, p.G, st.V, grad)
 			row = append(row, mu, r.Majorant.Value/mu)
 			errs = append(errs, mu)
 			lastMu = mu
 		}
 		t.Rows = append(t.Rows, row)
 	}
-	lab := convexLabel(last.Result.Label)
+	lab := last.Result.Label
 	res := &notebook.Results{
 		Scalars: []notebook.Scalar{
 			{Name: "majorant", Value: last.Result.Majorant.Value, Label: lab, Unit: "μ(v) ≤ majorant on the final mesh"},

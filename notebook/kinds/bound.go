@@ -5,7 +5,6 @@ import (
 	"math"
 	"strings"
 
-	"gapbook/convex"
 	"gapbook/estimate"
 	"gapbook/mesh"
 	"gapbook/notebook"
@@ -59,16 +58,6 @@ func (boundKind) Inputs() []notebook.Input {
 		{Name: "minorant", Type: notebook.Bool, Default: true,
 			Doc: "solve once more on the uniformly refined mesh: its energy gives the lower bound μ(v) ≥ J(v) − J(w) and the upper end of the energy interval"},
 	}
-}
-
-func convexLabel(l convex.Label) notebook.Label {
-	switch l {
-	case convex.Guaranteed:
-		return notebook.Guaranteed
-	case convex.Reference:
-		return notebook.Reference
-	}
-	return notebook.Estimate
 }
 
 // Bounds is the object a bound cell hands on (name "bounds").
@@ -197,7 +186,7 @@ func boundResults(b *Bounds, st boundSettings) *notebook.Results {
 	r := b.Result
 	sol := b.Solution
 	p := sol.Problem
-	lab := convexLabel(r.Label)
+	lab := r.Label
 	res := &notebook.Results{Objects: map[string]any{"bounds": b}}
 	add := func(name string, v float64, l notebook.Label, unit string) {
 		res.Scalars = append(res.Scalars, notebook.Scalar{Name: name, Value: v, Label: l, Unit: unit})
@@ -216,8 +205,7 @@ func boundResults(b *Bounds, st boundSettings) *notebook.Results {
 	}
 	if mf := p.Exact(); mf != nil {
 		_, _, grad := mf.At(0)
-		per := estimate.PrimalError(sol.Space, p.G, sol.V, grad)
-		mu := sum(per)
+		mu, _ := estimate.PrimalError(sol.Space, p.G, sol.V, grad)
 		dual := estimate.DualError(sol.Space, p.G, b.Flux, grad, st.degree)
 		note := ""
 		if interpolatedData(r.Assumptions) {
@@ -277,7 +265,7 @@ func addMinorant(c *notebook.Context, b *Bounds, st boundSettings, res *notebook
 	}
 	jw := estimate.Energy(w.Space, p.G, p.SourceAt(0), w.V, r.Degree)
 	mu := estimate.Minorant(r.Energy, jw)
-	lab := convexLabel(r.Label)
+	lab := r.Label
 	e := estimate.EnergyInterval(r, mu)
 	res.Scalars = append(res.Scalars,
 		notebook.Scalar{Name: "minorant", Value: mu, Label: lab, Unit: "μ(v) ≥ J(v) − J(w), w on the refined mesh"},
@@ -327,12 +315,4 @@ func coarseData(sol *Solution, fine *mesh.Mesh) func(x, y float64) float64 {
 		}
 		return uD(x, y)
 	}
-}
-
-func sum(v []float64) float64 {
-	t := 0.0
-	for _, x := range v {
-		t += x
-	}
-	return t
 }

@@ -102,11 +102,11 @@ func (evolveKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.R
 	if err != nil {
 		return nil, notebook.FieldErr("steps", "%v", err)
 	}
-	lab := convexLabel(r.Label)
+	lab := r.Label
 	res := &notebook.Results{Scalars: []notebook.Scalar{
 		{Name: "bound", Value: r.Split.Value, Label: lab, Unit: "sup_t S(t) ≤ bound, S = ∫ D_G(∇v, ∂G(∇u)) + ∫ D_G(∇u, y*) + ½‖e(t)‖² over (0, t)"},
-		{Name: "modulus_bound", Value: r.Modulus.Value, Label: convexLabel(r.Modulus.Label), Unit: "the same with the global Friedrichs constant"},
-		{Name: "constant_free", Value: r.ConstantFree.Value, Label: convexLabel(r.ConstantFree.Label), Unit: "S(T) ≤ constant_free (Gronwall form, no modulus, no constant)"},
+		{Name: "modulus_bound", Value: r.Modulus.Value, Label: r.Modulus.Label, Unit: "the same with the global Friedrichs constant"},
+		{Name: "constant_free", Value: r.ConstantFree.Value, Label: r.ConstantFree.Label, Unit: "S(T) ≤ constant_free (Gronwall form, no modulus, no constant)"},
 		{Name: "norm_bound", Value: r.Norm.Value, Label: lab, Unit: fmt.Sprintf("‖∇(u − v)‖ in L^%g over space and time", p.Exponent())},
 		{Name: "max_error_bound", Value: r.Final.Value, Label: lab, Unit: "max_t ‖u(t) − v(t)‖ in L²"},
 		{Name: "initial_error", Value: r.Initial, Label: notebook.Estimate, Unit: "½‖u0 − v(0)‖², quadrature"},
