@@ -75,8 +75,9 @@ type Terms struct {
 	// is R_osc = (Σ_T (C_P,α(T) ‖r − Π0 r‖_{α',T})^{α'})^{1/α'} with the
 	// convex-cell Poincaré constant of convex.PoincareConvex.
 	Residual, Mean, Osc float64
-	// Energy is J(v) = ∫ G(∇v) − f v.
-	Energy float64
+	// Energy is J(v) = ∫ G(∇v) − f v, and EnergyRound bounds the rounding
+	// of its floating-point sum (sumRound).
+	Energy, EnergyRound float64
 	// Degree is the degree of the base quadrature rule (as Quadrature.Degree).
 	Degree int
 	// Quadrature says how the integrals were computed and how large their
@@ -179,10 +180,10 @@ func EvaluateTerms(s *fem.P1, p *problem.Problem, v []float64, y Flux, degree in
 	// Pass 1: the base rule on every cell; the residual powers by a bound
 	// where r may vanish, cells where y* may vanish remembered for pass 2.
 	var suspects []int
-	var energy, area, totalD float64
+	var energy, energyAbs, area, totalD float64
 	for k, c := range s.Mesh.Cells {
 		g := t.grad[k]
-		var dk, mk, fv float64
+		var dk, mk, fv, fvAbs float64
 		smin, smax := math.Inf(1), 0.0
 		rmin, rmax := math.Inf(1), math.Inf(-1)
 		var fmax float64
@@ -224,6 +225,7 @@ func EvaluateTerms(s *fem.P1, p *problem.Problem, v []float64, y Flux, degree in
 				fx = f(x, yy)
 			}
 			fv += w * fx * vx
+			fvAbs += math.Abs(w * fx * vx)
 			r := fx + div
 			if a := math.Abs(fx) + math.Abs(div); a > fmax {
 				fmax = a
@@ -259,7 +261,9 @@ func EvaluateTerms(s *fem.P1, p *problem.Problem, v []float64, y Flux, degree in
 		t.osc[k] = ok
 		totalD += dk
 		area += s.Area[k]
-		energy += s.Area[k]*convex.Value(p.G, g) - fv
+		ek := s.Area[k] * convex.Value(p.G, g)
+		energy += ek - fv
+		energyAbs += math.Abs(ek) + fvAbs
 		if smin <= nearZero*(smax-smin) {
 			suspects = append(suspects, k)
 		}
@@ -290,17 +294,41 @@ func EvaluateTerms(s *fem.P1, p *problem.Problem, v []float64, y Flux, degree in
 		sumMean += t.mean[k]
 		sumOsc += t.osc[k]
 	}
-	t.D = sumD
-	t.Residual = math.Pow(sumRes, 1/conj)
-	t.Mean = math.Pow(sumMean, 1/conj)
-	t.Osc = math.Pow(sumOsc, 1/conj)
-	t.Energy = energy
+	// The sums are rounded: their terms are non-negative, so each exceeds
+	// its computed value by at most sumRound of itself; the bounds use the
+	// sums raised by that much (docs/math.md §8).
+	nterms := s.Mesh.NumCells() * (nq + rnq + roundOps)
+	up := func(x float64) float64 { return x + sumRound(nterms, x) }
+	t.D = up(sumD)
+	t.Residual = math.Pow(up(sumRes), 1/conj)
+	t.Mean = math.Pow(up(sumMean), 1/conj)
+	t.Osc = math.Pow(up(sumOsc), 1/conj)
+	t.Energy, t.EnergyRound = energy, sumRound(nterms, energyAbs)
 	for _, x := range []float64{t.D, t.Residual, t.Energy} {
 		if math.IsNaN(x) || math.IsInf(x, 0) {
 			return nil, errors.New("estimate: the terms are not finite; check f, v and the flux for NaN or overflow")
 		}
 	}
 	return t, nil
+}
+
+// roundOps counts, per cell, the roundings of one quadrature term beyond
+// those of the sum (products, the gap's own evaluation): generous, since
+// the allowance it sets is of the order of 1e-14 relative.
+const roundOps = 32
+
+// sumRound bounds the rounding error of a floating-point sum of n terms
+// whose absolute values add up to a: γ_n a with γ_n = n u/(1 − n u), u =
+// 2⁻⁵³ the unit roundoff (Higham, Accuracy and Stability of Numerical
+// Algorithms, 2nd ed., SIAM 2002, §4.2), each term's own roundings counted
+// in n.
+func sumRound(n int, a float64) float64 {
+	const u = 0x1p-53
+	nu := float64(n) * u
+	if nu >= 0.5 {
+		return math.Inf(1)
+	}
+	return nu / (1 - nu) * a
 }
 
 // roundoff is the size of r = f + div y*, relative to |f| + |div y*|, below
@@ -552,17 +580,26 @@ func YoungForm(D, R, c, alpha, theta float64) float64 {
 // Energy returns J(v) = ∫ G(∇v) − f v for the P1 function v, with the load
 // term integrated by the rule of the given degree (0: DefaultDegree).
 func Energy(s *fem.P1, G convex.Potential, f func(x, y float64) float64, v []float64, degree int) float64 {
+	e, _ := EnergyRounded(s, G, f, v, degree)
+	return e
+}
+
+// EnergyRounded is Energy with a bound of the rounding of its sum
+// (sumRound), for bounds that rest on J(v).
+func EnergyRounded(s *fem.P1, G convex.Potential, f func(x, y float64) float64, v []float64, degree int) (e, round float64) {
 	degree = positiveDegree(degree)
 	rule := s.Rule(degree)
 	dim := s.Mesh.Dim
-	var e float64
+	var abs float64
 	for k, c := range s.Mesh.Cells {
 		var g [2]float64
 		for a := range dim + 1 {
 			g[0] += v[c[a]] * s.Grad[k][a][0]
 			g[1] += v[c[a]] * s.Grad[k][a][1]
 		}
-		e += s.Area[k] * convex.Value(G, g)
+		ek := s.Area[k] * convex.Value(G, g)
+		e += ek
+		abs += math.Abs(ek)
 		for q, pt := range rule.Points {
 			lam, scale := cellPoint(dim, pt)
 			x, y := physical(s, k, lam)
@@ -570,15 +607,22 @@ func Energy(s *fem.P1, G convex.Potential, f func(x, y float64) float64, v []flo
 			for a := range dim + 1 {
 				vx += lam[a] * v[c[a]]
 			}
-			e -= rule.Weights[q] * scale * s.Area[k] * f(x, y) * vx
+			t := rule.Weights[q] * scale * s.Area[k] * f(x, y) * vx
+			e -= t
+			abs += math.Abs(t)
 		}
 	}
-	return e
+	return e, sumRound(s.Mesh.NumCells()*(rule.Len()+roundOps), abs)
 }
 
 // Minorant returns μ̲ = max(0, J(v) − J(w)) ≤ μ(v) for any admissible w
 // (docs/math.md §4), e.g. the solution on a refined mesh, from the two energies.
 func Minorant(jv, jw float64) float64 { return math.Max(0, jv-jw) }
+
+// MinorantRounded is Minorant lowered by the rounding bounds rv and rw of
+// the two energies (EnergyRounded, Terms.EnergyRound), so that it stays
+// below μ(v) in floating point.
+func MinorantRounded(jv, rv, jw, rw float64) float64 { return math.Max(0, jv-jw-rv-rw) }
 
 // Interval is a labelled interval [Lo, Hi].
 type Interval struct {
@@ -589,8 +633,11 @@ type Interval struct {
 
 // EnergyInterval returns J(u) ∈ [J(v) − μ̄, J(v) − μ̲] (docs/math.md §4) from a
 // result and a minorant μ̲.
+//
+// Both ends are widened by the rounding bound of J(v), so that they
+// enclose J(u) in floating point too.
 func EnergyInterval(r *Result, minorant float64) Interval {
-	return Interval{Lo: r.Energy - r.Majorant.Value, Hi: r.Energy - minorant,
+	return Interval{Lo: r.Energy - r.EnergyRound - r.Majorant.Value, Hi: r.Energy + r.EnergyRound - minorant,
 		Label: r.Label, Assumptions: r.Assumptions}
 }
 

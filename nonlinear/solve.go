@@ -54,8 +54,10 @@ type Options struct {
 	// decrement (default 1e-10).
 	Tol float64
 	// ResTol is the relative residual required as well:
-	// ‖g‖ ≤ ResTol · (‖b‖ + ‖F(w)‖), with b the load and F(w) the internal
-	// forces ∫ ∂G(∇w)·∇φ_i, both on the free nodes (default 1e-8).
+	// ‖g‖ ≤ ResTol · (‖b‖ + ‖F(w)‖), with g and b the gradient of J and the
+	// load on the free nodes and F(w) the internal forces ∫ ∂G(∇w)·∇φ_i at
+	// all nodes, the reactions at the Dirichlet nodes included (default
+	// 1e-8; docs/math.md §4.8).
 	// For potentials of growth below 2 both tests are replaced by the
 	// relative duality gap ≤ Tol (Step.Gap): there the residual is
 	// dominated by cells whose gradients do not matter for the energy.
@@ -119,10 +121,29 @@ type Result struct {
 	Load []float64
 }
 
+// Cause says why Newton stopped short of its tolerance.
+type Cause int
+
+const (
+	// StepsExhausted: MaxIter steps on one level or stage without meeting
+	// the tolerance.
+	StepsExhausted Cause = iota + 1
+	// LineSearchFailed: J does not decrease along the Newton direction,
+	// even for tiny steps.
+	LineSearchFailed
+	// NoDescent: the linear solver gave no descent direction (the Hessian
+	// is not positive definite at the iterate).
+	NoDescent
+	// NotFinite: the energy or the residual became NaN.
+	NotFinite
+)
+
 // NotConvergedError reports a solve that did not reach its tolerances; it
-// carries the history so that the caller can show what happened.
+// carries the cause and the history so that the caller can show what
+// happened and say what to change.
 type NotConvergedError struct {
 	Reason  string
+	Cause   Cause
 	History []Step
 	// U is the last iterate on the finest mesh reached (nil if none).
 	U []float64
@@ -249,7 +270,7 @@ func solve(ctx context.Context, m *mesh.Mesh, p discrete, o Options, cache *leve
 			}
 		}
 		if !ok && final {
-			return nil, &NotConvergedError{Reason: sv.reason, History: sv.hist, U: w}
+			return nil, &NotConvergedError{Reason: sv.reason, Cause: sv.cause, History: sv.hist, U: w}
 		}
 		if final {
 			e, _ := lv.energy(p.G, w)
@@ -309,7 +330,13 @@ type solver struct {
 	o      Options
 	hist   []Step
 	reason string
+	cause  Cause
 	cache  *levelCache
+}
+
+// fail records why Newton stopped short.
+func (sv *solver) fail(c Cause, format string, a ...any) {
+	sv.cause, sv.reason = c, fmt.Sprintf(format, a...)
 }
 
 // continuation drives w through the smoothed potentials g_ε, ε = ε0, ε0/10,
@@ -324,6 +351,7 @@ func (sv *solver) continuation(ctx context.Context, lv *level, w []float64, fall
 		if err := sv.laplaceStart(ctx, lv, w); err != nil {
 			return err
 		}
+		sv.scaleStart(lv, w)
 		lv.s.Gradient(w, lv.grad)
 		eps0 = rms(lv)
 	}
@@ -362,6 +390,61 @@ func (sv *solver) laplaceStart(ctx context.Context, lv *level, w []float64) erro
 	return err
 }
 
+// scaleStart moves the free values of w along the ray w_D + λ(w − w_D)
+// (w_D: w with its free values set to zero) to the λ ≥ 0 that minimises J
+// with the exact potential. The Laplace solution has the shape but not the
+// size of the solution: for −div(|∇u|^{α−2}∇u) = f the size scales like
+// f^{1/(α−1)}, so for α far from 2 it is off by orders of magnitude, and
+// Newton from it meets a Hessian that is numerically zero (α > 2) or
+// infinite (α < 2). J(λ) is convex, so bisection on the sign of dJ/dλ =
+// ∇J(w(λ))·(w − w_D) finds λ (docs/math.md §4, "The solver").
+func (sv *solver) scaleStart(lv *level, w []float64) {
+	free := lv.s.FreeNodes
+	d := make([]float64, len(free))
+	for i, n := range free {
+		d[i] = w[n]
+	}
+	if dot(d, d) == 0 {
+		return
+	}
+	copy(lv.trial, w)
+	at := func(lambda float64) float64 {
+		for i, n := range free {
+			lv.trial[n] = lambda * d[i]
+		}
+		lv.residual(sv.p.G, lv.trial, lv.gt)
+		return dot(lv.gt, d)
+	}
+	lo, hi := 0.0, 1.0
+	if !(at(0) < 0) {
+		return // the data alone minimise J along the ray
+	}
+	for at(hi) < 0 {
+		lo, hi = hi, 2*hi
+		if hi > 1e300 {
+			return
+		}
+	}
+	for range 200 {
+		mid := 0.5 * (lo + hi)
+		if mid <= lo || mid >= hi {
+			break
+		}
+		if at(mid) < 0 {
+			lo = mid
+		} else {
+			hi = mid
+		}
+		if hi-lo <= 1e-3*hi {
+			break
+		}
+	}
+	lambda := 0.5 * (lo + hi)
+	for i, n := range free {
+		w[n] = lambda * d[i]
+	}
+}
+
 func rms(lv *level) float64 {
 	s, a := 0.0, 0.0
 	for k, g := range lv.grad {
@@ -381,7 +464,13 @@ func (sv *solver) stepStart(ctx context.Context, lv *level, G convex.Potential, 
 	}
 	gnorm, ref := lv.residual(G, w, lv.g)
 	if math.IsNaN(gnorm) || math.IsNaN(J) {
-		sv.reason = fmt.Sprintf("the energy or residual is NaN on level %d; check f, the Dirichlet data and the potential near the current gradients", lv.index)
+		// f and u_D are finite (the level checked them): the potential or
+		// its flux overflows at the gradients the iterate has.
+		gmax := 0.0
+		for _, g := range lv.grad {
+			gmax = math.Max(gmax, math.Hypot(g[0], g[1]))
+		}
+		sv.fail(NotFinite, "the energy or residual is not finite on level %d: the gradient reaches |∇w| = %.3g, where G(∇w) = %g", lv.index, gmax, convex.Value(G, [2]float64{gmax, 0}))
 		return gnorm, 0, false, nil
 	}
 	return gnorm, gnorm / ref, true, nil
@@ -400,7 +489,7 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 			return false, err
 		}
 		if it >= sv.o.MaxIter {
-			sv.reason = fmt.Sprintf("no convergence in %d Newton steps on level %d (%d unknowns)", sv.o.MaxIter, lv.index, lv.s.NumFree())
+			sv.fail(StepsExhausted, "no convergence in %d Newton steps on level %d (%d unknowns)", sv.o.MaxIter, lv.index, lv.s.NumFree())
 			return false, nil
 		}
 		if gnorm == 0 {
@@ -428,9 +517,18 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 			// well below its typical size: capping earlier misjudges the
 			// cells with small gradients when α is close to 1.
 			reg *= math.Min(1, math.Pow(0.1, 1/(a-1))/1e-6)
+		} else if a > 2 {
+			// Likewise for degenerate growth: freeze D²G where g''(t) ~
+			// t^{α−2} has fallen below 1e-6 of its typical size, not at a
+			// fixed fraction of the gradients. For large α a fixed radius
+			// leaves curvatures of 1e-60 in the cells with small gradients,
+			// and the Newton step there is so long that the line search
+			// cuts it to 1e-6 of its length.
+			reg *= math.Max(1, math.Pow(1e-6, 1/(a-2))/1e-6)
 		}
 		if err := lv.hessian(G, reg); err != nil {
-			return false, err
+			sv.fail(NoDescent, "no descent direction on level %d: the Hessian is not positive definite (%v)", lv.index, err)
+			return false, nil
 		}
 		for i := range lv.g {
 			lv.g[i] = -lv.g[i]
@@ -443,7 +541,7 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 		gd := -dot(lv.g, lv.d) // gᵀδ with g the gradient (lv.g holds −g)
 		step := Step{Epsilon: eps, Decrement: -gd / 2 / scale, Residual: res, Forcing: eta, CG: st.Iterations, MatVecs: st.MatVecs}
 		if !(gd < 0) {
-			sv.reason = fmt.Sprintf("the linear solver gave no descent direction on level %d (%v)", lv.index, err)
+			sv.fail(NoDescent, "the linear solver gave no descent direction on level %d (%v)", lv.index, err)
 			step.Energy = J
 			sv.record(lv, step)
 			return false, nil
@@ -481,7 +579,7 @@ func (sv *solver) newton(ctx context.Context, lv *level, G convex.Potential, eps
 					// cannot be reduced further in this precision.
 					return true, nil
 				}
-				sv.reason = fmt.Sprintf("line search failed on level %d: J does not decrease along the Newton direction", lv.index)
+				sv.fail(LineSearchFailed, "line search failed on level %d: J does not decrease along the Newton direction", lv.index)
 				return false, nil
 			}
 		}

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -465,5 +466,22 @@ func TestNotConverged(t *testing.T) {
 	}
 	if _, err := Solve(context.Background(), m, problem.Steady(p.G, func(x, y float64) float64 { return math.Inf(1) }, nil), Options{}); err == nil {
 		t.Error("infinite source accepted")
+	}
+}
+
+// negCurvature is a potential whose reported Hessian is negative definite:
+// the Newton system has no descent direction, and Solve must say so with
+// the cause NoDescent rather than loop or panic.
+type negCurvature struct{ convex.Potential }
+
+func (negCurvature) Profile(t float64) (g, g1, g2 float64) { return -t * t / 2, -t, -1 }
+
+func TestSolveNoDescent(t *testing.T) {
+	m, _ := mesh.Rectangle(0, 1, 0, 1, 4, 4)
+	G, _ := convex.Quadratic(1)
+	_, err := Solve(context.Background(), m, problem.Steady(negCurvature{G}, func(x, y float64) float64 { return 1 }, nil), Options{})
+	var nc *NotConvergedError
+	if !errors.As(err, &nc) || nc.Cause != NoDescent || !strings.Contains(err.Error(), "no descent direction") {
+		t.Fatalf("got %v; want a NotConvergedError with cause NoDescent", err)
 	}
 }

@@ -1,6 +1,7 @@
 package notebook
 
 import (
+	"encoding/json"
 	"fmt"
 	"strings"
 )
@@ -8,7 +9,8 @@ import (
 // Format version 2 calls the growth exponent p, as users and docs/ do:
 // version 1's input and result name "alpha" becomes "p" (problem and
 // constant cells, sweeps over it, run history), and "alpha_eigenvalue"
-// becomes "p_eigenvalue" (docs/format.md, "Version 2").
+// becomes "p_eigenvalue"; an input 0 that meant "not given" (mesh.h,
+// constant.alpha) is left out (docs/format.md, "Version 2").
 func init() { migrations[1] = migrateV1 }
 
 // v1Names maps, per kind, the version-2 input names back to version 1.
@@ -105,6 +107,16 @@ func renameInputs(kind string, in map[string]any) []string {
 				notes = append(notes, "input alpha renamed p")
 			}
 		}
+	}
+	// Version 1 let 0 stand for "not given" in mesh.h and constant.alpha;
+	// version 2 leaves the input out instead (0 is refused).
+	if (kind == "mesh" && isZero(in["h"])) || (kind == "constant" && isZero(in["p"])) {
+		name := "h"
+		if kind == "constant" {
+			name = "p"
+		}
+		delete(in, name)
+		notes = append(notes, "input "+name+" = 0 (meaning not given) left out")
 	}
 	if kind == "sweep" && in["input"] == "alpha" {
 		in["input"] = "p"
@@ -238,4 +250,13 @@ func legacyColumns(name string, x any) any {
 		}
 	}
 	return x
+}
+
+func isZero(v any) bool {
+	n, ok := v.(json.Number)
+	if !ok {
+		return false
+	}
+	f, err := n.Float64()
+	return err == nil && f == 0
 }

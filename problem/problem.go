@@ -92,6 +92,10 @@ func (p *Problem) HasExact() bool { return p.exact != nil }
 // Derived reports whether f is derived from the exact solution.
 func (p *Problem) Derived() bool { return p.derived }
 
+// DirichletFromExact reports whether u_D is the exact solution (no u_D was
+// stated, an exact solution was).
+func (p *Problem) DirichletFromExact() bool { return p.uD == nil && p.exact != nil }
+
 // ZeroDirichlet reports whether the boundary data vanish identically.
 func (p *Problem) ZeroDirichlet() bool { return p.Dirichlet == nil }
 
@@ -376,7 +380,16 @@ func FormulaMessage(err error) string {
 		return e.Msg
 	}
 	head, tail, found := strings.Cut(e.Msg, "; ")
-	s := fmt.Sprintf("%s at column %d", head, e.Col)
+	var s string
+	switch i := strings.Index(head, " to close "); {
+	case i >= 0:
+		// `expected ")" to close "(" at column 3`: one column per place.
+		s = fmt.Sprintf("%s at column %d%s", head[:i], e.Col, head[i:])
+	case strings.Contains(head, " at column "):
+		s = fmt.Sprintf("%s (found at column %d)", head, e.Col)
+	default:
+		s = fmt.Sprintf("%s at column %d", head, e.Col)
+	}
 	if found {
 		s += "; " + tail
 	}

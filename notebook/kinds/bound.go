@@ -194,7 +194,7 @@ func boundResults(b *Bounds, st boundSettings) *notebook.Results {
 	add("majorant", r.Majorant.Value, lab, "μ(v) = J(v) − J(u) ≤ majorant")
 	add("dual_majorant", r.Dual.Value, lab, "μ*(y*) = ∫ D_G(∇u, y*) ≤ dual_majorant")
 	add("norm_bound", r.Norm.Value, lab, fmt.Sprintf("‖∇(u − v)‖ in L^%g ≤ norm_bound", p.Exponent()))
-	add("energy_low", r.Energy-r.Majorant.Value, lab, "J(u) ≥ J(v) − majorant")
+	add("energy_low", estimate.EnergyInterval(r, 0).Lo, lab, "J(u) ≥ J(v) − majorant (less the rounding of J(v))")
 	add("discrete_energy", r.Energy, notebook.Estimate, fmt.Sprintf("J(v): ∫ G(∇v) exactly, ∫ f v by a rule of degree %d", r.Quadrature.ResidualDegree))
 	add("gap_integral", r.D, notebook.Estimate, "∫ D_G(∇v, y*), quadrature")
 	add("residual_term", r.R.Value, lab, fmt.Sprintf("R in ∫ r(u − v) ≤ R ‖∇(u − v)‖, %s form", r.Form))
@@ -263,8 +263,8 @@ func addMinorant(c *notebook.Context, b *Bounds, st boundSettings, res *notebook
 		}
 		return notebook.FieldErr("minorant", "solve on the refined mesh: %v", err)
 	}
-	jw := estimate.Energy(w.Space, p.G, p.SourceAt(0), w.V, r.Degree)
-	mu := estimate.Minorant(r.Energy, jw)
+	jw, rw := estimate.EnergyRounded(w.Space, p.G, p.SourceAt(0), w.V, r.Degree)
+	mu := estimate.MinorantRounded(r.Energy, r.EnergyRound, jw, rw)
 	lab := r.Label
 	e := estimate.EnergyInterval(r, mu)
 	res.Scalars = append(res.Scalars,

@@ -26,14 +26,8 @@ func (constantKind) Doc() string {
 func (constantKind) Inputs() []notebook.Input {
 	return []notebook.Input{
 		{Name: "mesh", Type: notebook.Ref, RefKinds: []string{"mesh"}, Doc: "id of the mesh cell whose domain is measured (the eigenvalue methods use this mesh)"},
-		{Name: "p", Type: notebook.Number, Default: 0.0, Low: notebook.AtLeast(0), High: notebook.AtMost(100),
-			Check: func(v any) error {
-				if a := v.(float64); a != 0 && a <= 1 {
-					return fmt.Errorf("want 0 (the problem's exponent) or a number > 1, got %g", a)
-				}
-				return nil
-			},
-			Doc: "exponent p > 1 of the norms; 0 takes the problem's growth exponent"},
+		{Name: "p", Type: notebook.Number, Default: 0.0, Low: notebook.Above(1), High: notebook.AtMost(100),
+			Doc: "exponent p > 1 of the norms; leave it out to take the problem's growth exponent"},
 		{Name: "eigenvalue", Type: notebook.Bool, Default: true,
 			Doc: "also estimate the first eigenvalue of the α-Laplacian on the mesh (an estimate, not a bound: a discrete eigenvalue lies above the exact one)"},
 	}

@@ -27,8 +27,8 @@ func (meshKind) Inputs() []notebook.Input {
 		{Name: "problem", Type: notebook.Ref, RefKinds: []string{"problem"}, Doc: "id of the problem cell whose domain is meshed"},
 		{Name: "cells", Type: notebook.Integer, Default: 8, Low: notebook.AtLeast(1), High: notebook.AtMost(4096),
 			Doc: "cells across the domain: per unit length on the L-shape, across the shorter side of a rectangle, across the diameter of a disk or polygon"},
-		{Name: "h", Type: notebook.Number, Default: 0.0, Low: notebook.AtLeast(0),
-			Doc: "target largest cell diameter; when > 0 it replaces cells"},
+		{Name: "h", Type: notebook.Number, Default: 0.0, Low: notebook.Above(0),
+			Doc: "target largest cell diameter; when given it replaces cells (leave it out to use cells)"},
 		{Name: "refinements", Type: notebook.Integer, Default: 0, Low: notebook.AtLeast(0), High: notebook.AtMost(12),
 			Doc: "uniform refinements after that (each halves h and keeps the hierarchy the multigrid solver uses)"},
 	}

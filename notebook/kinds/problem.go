@@ -67,7 +67,13 @@ func (problemKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.
 	p.Name = c.Cell()
 	coarse, err := p.Domain.Mesh(1, 0)
 	if err != nil {
-		return nil, notebook.FieldErr("domain", "%v", err)
+		// A polygon that cannot be meshed is the fault of its vertices
+		// (the message names the crossing edges).
+		field := "domain"
+		if p.Domain.Shape == problem.Polygon {
+			field = "vertices"
+		}
+		return nil, notebook.FieldErr(field, "%v", err)
 	}
 	res := &notebook.Results{
 		Scalars: []notebook.Scalar{

@@ -3,6 +3,7 @@ package kinds
 import (
 	"errors"
 	"fmt"
+	"math"
 
 	"gapbook/estimate"
 	"gapbook/fem"
@@ -78,11 +79,7 @@ func solveWith(c *notebook.Context, p *problem.Problem, m *mesh.Mesh, uD func(x,
 		if e := c.Err(); e != nil {
 			return nil, e
 		}
-		var nc *nonlinear.NotConvergedError
-		if errors.As(err, &nc) {
-			return nil, notebook.FieldErr("max_newton", "%v; allow more steps or a looser tolerance", err)
-		}
-		return nil, err
+		return nil, solveFailure(p, err, tol)
 	}
 	return &Solution{Problem: p, Mesh: m, Space: s, V: r.U, Result: r, Tolerance: tol, MaxNewton: maxNewton}, nil
 }
@@ -128,4 +125,73 @@ func historyTable(h []nonlinear.Step) notebook.Table {
 			s.Energy, s.Decrement, s.Residual, s.StepLength, float64(s.CG)})
 	}
 	return t
+}
+
+// solveFailure turns a failed solve into the error of the input to change,
+// with what failed, the last residual and a remedy that works
+// (docs/math.md §4.8).
+func solveFailure(p *problem.Problem, err error, tol float64) error {
+	var de *nonlinear.DataError
+	if errors.As(err, &de) {
+		field := de.Datum
+		if de.Datum == "u_D" && p.DirichletFromExact() || de.Datum == "f" && p.Derived() {
+			field = "exact" // the datum comes from the exact solution
+		}
+		if field == "exact" {
+			return notebook.FieldErr(field, "the exact solution, which gives %s here, is %g at the %s (%g, %g); it must be finite on the domain", de.Datum, de.Value, map[string]string{"u_D": "boundary node", "f": "quadrature point"}[de.Datum], de.At.X, de.At.Y)
+		}
+		return notebook.FieldErr(field, "%v", de)
+	}
+	var nc *nonlinear.NotConvergedError
+	if !errors.As(err, &nc) {
+		return err
+	}
+	last := nonlinear.Step{}
+	if n := len(nc.History); n > 0 {
+		last = nc.History[n-1]
+	}
+	switch nc.Cause {
+	case nonlinear.StepsExhausted:
+		if stagnated(nc.History) {
+			return notebook.FieldErr("tolerance", "%v; the energy decrement stagnates near %.1e, which floating point cannot resolve further: set tolerance to %.0e or more", err, last.Decrement, suggestTol(last.Decrement, tol))
+		}
+		return notebook.FieldErr("max_newton", "%v; the decrement is still falling: allow more Newton steps (max_newton)", err)
+	case nonlinear.LineSearchFailed:
+		if last.Decrement < 1e-6 {
+			return notebook.FieldErr("tolerance", "%v; J cannot decrease further in floating point at relative decrement %.1e: set tolerance to %.0e or more", err, last.Decrement, suggestTol(last.Decrement, tol))
+		}
+		return notebook.FieldErr("tolerance", "%v; the Newton direction does not lower the energy far from the solution: the data may be badly scaled for this exponent (try f and u_D of size about 1, or solve at an exponent nearer 2 first)", err)
+	case nonlinear.NoDescent:
+		return notebook.FieldErr("potential", "%v; the linearised problem is not positive definite at the current gradients: the potential is not convex enough there", err)
+	case nonlinear.NotFinite:
+		return notebook.FieldErr("p", "%v; the potential leaves the floating-point range (about 1.8e308) at these gradients: rescale the problem so that gradients are of order 1 (for the power potential u ↦ λu turns f into λ^{p−1} f), or lower p", err)
+	}
+	return notebook.FieldErr("max_newton", "%v", err)
+}
+
+// stagnated reports whether the decrement stopped falling over the last
+// steps of a history.
+func stagnated(h []nonlinear.Step) bool {
+	if len(h) < 8 {
+		return false
+	}
+	best, recent := math.Inf(1), math.Inf(1)
+	for i, s := range h {
+		if s.StepLength == 0 {
+			continue
+		}
+		if i < len(h)-4 {
+			best = math.Min(best, s.Decrement)
+		} else {
+			recent = math.Min(recent, s.Decrement)
+		}
+	}
+	return recent >= 0.5*best
+}
+
+// suggestTol is a tolerance that a stalled decrement d meets: ten times d,
+// rounded up to a power of ten, and never tighter than the one asked for.
+func suggestTol(d, tol float64) float64 {
+	t := math.Pow(10, math.Ceil(math.Log10(10*math.Max(d, 1e-300))))
+	return math.Max(t, tol)
 }

@@ -114,7 +114,7 @@ func TestKindInputErrors(t *testing.T) {
 	}{
 		{kc("x", "mesh", map[string]any{"problem": "p", "h": 1e-9}), "cell x: input h: "},
 		{kc("x", "mesh", map[string]any{"problem": "s"}), "cell x: input problem: "},
-		{kc("x", "constant", map[string]any{"mesh": "m", "p": 0.5}), "cell x: input p: want 0 (the problem's exponent) or a number > 1, got 0.5"},
+		{kc("x", "constant", map[string]any{"mesh": "m", "p": 0.5}), "cell x: input p: want a number > 1 and ≤ 100, got 0.5"},
 		{kc("x", "bound", map[string]any{"solution": "s", "order": 2}), "cell x: input order: want a whole number ≥ 0 and ≤ 1, got 2"},
 		{kc("x", "bound", map[string]any{"solution": "s", "flux": "smoothed"}), "cell x: input flux: want one of equilibrated, minimised, averaged, got \"smoothed\""},
 		{kc("x", "solve", map[string]any{"mesh": "m", "max_newton": 1}), "cell x: input max_newton: newton: "},

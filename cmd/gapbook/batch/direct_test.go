@@ -75,7 +75,8 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 		t.Fatal(err)
 	}
 	sf, _ := fem.NewP1(fine)
-	mu := estimate.Minorant(r.Energy, estimate.Energy(sf, G, one, w.U, 8))
+	jw, rw := estimate.EnergyRounded(sf, G, one, w.U, 8)
+	mu := estimate.MinorantRounded(r.Energy, r.EnergyRound, jw, rw)
 	e := estimate.EnergyInterval(r, mu)
 	q, err := estimate.FlowRate(e, 3, 1)
 	if err != nil {
