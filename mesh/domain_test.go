@@ -367,6 +367,17 @@ func TestBadInput(t *testing.T) {
 		{"touching", func() error { _, err := Polygon([]Point{{0, 0}, {4, 0}, {4, 4}, {2, 0}, {0, 4}}, 1); return err },
 			[]string{"edge 1 from (0, 0) to (4, 0)", "cross at (2, 0)"}},
 		{"fold back", func() error { _, err := Polygon([]Point{{0, 0}, {2, 0}, {1, 0}, {1, 1}}, 1); return err }, []string{"fold back"}},
+		// Coordinates whose cross products overflow or underflow are named
+		// as such, not as a zero area.
+		{"huge coordinates", func() error {
+			_, err := Polygon([]Point{{0, 0}, {1e308, 0}, {1e308, 1e308}, {0, 1e308}}, 1e307)
+			return err
+		},
+			[]string{"vertex 2 is (1e+308, 0)", "coordinates up to 1e+100", "other units"}},
+		{"tiny extent", func() error {
+			_, err := Polygon([]Point{{0, 0}, {1e-300, 0}, {1e-300, 1e-300}, {0, 1e-300}}, 1e-301)
+			return err
+		}, []string{"span only 1e-300", "other units"}},
 		{"h zero", func() error { _, err := Polygon([]Point{{0, 0}, {1, 0}, {0, 1}}, 0); return err }, []string{"h must be positive", "got 0"}},
 		{"h NaN", func() error { _, err := Disk(1, 8, nan); return err }, []string{"h must be positive"}},
 		// √2/2^14 ≤ 1e-4 needs 14 levels; a triangle cut into 2^14 per side

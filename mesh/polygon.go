@@ -251,6 +251,13 @@ func Polygon(vertices []Point, h float64) (*Mesh, error) {
 	return m.refineTo(h, "polygon")
 }
 
+// MaxCoordinate and MinExtent bound the polygons Polygon meshes: products
+// of coordinates stay far from overflow and underflow.
+const (
+	MaxCoordinate = 1e100
+	MinExtent     = 1e-100
+)
+
 // checkPolygon refuses polygons we cannot mesh, naming what is wrong, and
 // returns the vertices counter-clockwise.
 func checkPolygon(v []Point) ([]Point, error) {
@@ -262,6 +269,20 @@ func checkPolygon(v []Point) ([]Point, error) {
 		if math.IsNaN(p.X) || math.IsNaN(p.Y) || math.IsInf(p.X, 0) || math.IsInf(p.Y, 0) {
 			return nil, fmt.Errorf("polygon: vertex %d is (%g, %g); coordinates must be finite numbers", i+1, p.X, p.Y)
 		}
+	}
+	// Cross products and squared lengths of coordinates must neither
+	// overflow nor underflow: outside this range a polygon would look
+	// degenerate for the wrong reason.
+	lo, hi := v[0], v[0]
+	for i, p := range v {
+		if m := math.Max(math.Abs(p.X), math.Abs(p.Y)); m > MaxCoordinate {
+			return nil, fmt.Errorf("polygon: vertex %d is (%g, %g); coordinates up to %g in size can be meshed: state the domain in other units", i+1, p.X, p.Y, float64(MaxCoordinate))
+		}
+		lo.X, lo.Y = math.Min(lo.X, p.X), math.Min(lo.Y, p.Y)
+		hi.X, hi.Y = math.Max(hi.X, p.X), math.Max(hi.Y, p.Y)
+	}
+	if ext := math.Max(hi.X-lo.X, hi.Y-lo.Y); ext < MinExtent {
+		return nil, fmt.Errorf("polygon: the vertices span only %g; a domain at least %g across can be meshed: state the domain in other units", ext, float64(MinExtent))
 	}
 	for i := range n {
 		if j := (i + 1) % n; v[i] == v[j] {

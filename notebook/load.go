@@ -5,7 +5,9 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"maps"
+	"reflect"
 	"slices"
 	"strconv"
 	"strings"
@@ -26,6 +28,9 @@ var migrations = map[int]func(doc map[string]any) error{}
 // cell), Load returns the notebook together with the *LoadError, so an
 // editor can open it and show them; otherwise the notebook is nil.
 func Load(data []byte) (*Notebook, error) {
+	// A byte-order mark, which some editors write, is not part of the
+	// document.
+	data = bytes.TrimPrefix(data, bom)
 	if len(data) > MaxFileBytes {
 		return nil, &LoadError{[]Diagnostic{{"", fmt.Sprintf("file is %d bytes; at most %d allowed", len(data), MaxFileBytes)}}}
 	}
@@ -67,6 +72,83 @@ func Load(data []byte) (*Notebook, error) {
 		}
 	}
 	return nb, err
+}
+
+// bom is the UTF-8 byte-order mark.
+var bom = []byte{0xEF, 0xBB, 0xBF}
+
+// Sniff reports whether data can be a notebook file without decoding it
+// into memory: within the size limit, UTF-8, one JSON object with a format
+// version this program reads. It reads the document as a stream of tokens,
+// so a large study costs no more than its text; Load checks the rest.
+func Sniff(data []byte) error {
+	data = bytes.TrimPrefix(data, bom)
+	if len(data) > MaxFileBytes {
+		return fmt.Errorf("file is %d bytes; at most %d allowed", len(data), MaxFileBytes)
+	}
+	if !utf8.Valid(data) {
+		return errors.New("file is not valid UTF-8 text")
+	}
+	d := json.NewDecoder(bytes.NewReader(data))
+	d.UseNumber()
+	t, err := d.Token()
+	if err != nil || t != json.Delim('{') {
+		return errors.New("not a gapbook notebook: want a JSON object, {\"gapbook\": " + strconv.Itoa(FormatVersion) + ", ...}")
+	}
+	depth, version, expectKey := 1, "", true
+	for depth > 0 {
+		t, err := d.Token()
+		if err != nil {
+			return sniffErr(data, err)
+		}
+		delim, isDelim := t.(json.Delim)
+		switch {
+		case isDelim && (delim == '{' || delim == '['):
+			if depth++; depth > MaxDepth {
+				return fmt.Errorf("nesting deeper than %d levels", MaxDepth)
+			}
+		case isDelim:
+			if depth--; depth == 1 {
+				expectKey = true // a nested value of the top object ended
+			}
+		case depth == 1 && expectKey:
+			if t == versionKey {
+				n, err := d.Token()
+				if err != nil {
+					return sniffErr(data, err)
+				}
+				num, _ := n.(json.Number)
+				version = string(num)
+				if version == "" {
+					version = "?"
+				}
+				continue // the value was read with its key
+			}
+			expectKey = false
+		case depth == 1:
+			expectKey = true // a scalar value of the top object
+		}
+	}
+	if _, err := d.Token(); err == nil {
+		return fmt.Errorf("unexpected data after the document at %s", lineCol(data, d.InputOffset()))
+	}
+	v, err := strconv.Atoi(version)
+	switch {
+	case version == "":
+		return errors.New("gapbook: missing; a gapbook file starts with {\"gapbook\": " + strconv.Itoa(FormatVersion) + ", ...}")
+	case err != nil || v < 0:
+		return fmt.Errorf("gapbook: want a format version (a whole number ≥ 0), got %s", Clip(version, 40))
+	case v > FormatVersion:
+		return fmt.Errorf("gapbook: format version %d is newer than this gapbook reads (%d); update gapbook", v, FormatVersion)
+	}
+	return nil
+}
+
+func sniffErr(data []byte, err error) error {
+	if errors.Is(err, io.EOF) || errors.Is(err, io.ErrUnexpectedEOF) {
+		return errors.New("not valid JSON: the document ends before it is complete (a truncated file?)")
+	}
+	return errors.New(syntaxMsg(data, err))
 }
 
 func migrate(doc map[string]any) error {
@@ -469,9 +551,28 @@ func jsonErr(err error) string {
 		if where == "" {
 			where = "value"
 		}
-		return fmt.Sprintf("%s: want %s, got %s", where, te.Type, te.Value)
+		return fmt.Sprintf("%s: want %s, got %s", where, goTypeWords(te.Type), te.Value)
 	}
 	return strings.TrimPrefix(err.Error(), "json: ")
+}
+
+// goTypeWords names a Go type of the file's model in the words of the format.
+func goTypeWords(t reflect.Type) string {
+	switch t.Kind() {
+	case reflect.Slice, reflect.Array:
+		return "a list of " + goTypeWords(t.Elem()) + "s"
+	case reflect.Map:
+		return "an object"
+	case reflect.String:
+		return "a text"
+	case reflect.Bool:
+		return "true or false"
+	case reflect.Float32, reflect.Float64, reflect.Int, reflect.Int32, reflect.Int64:
+		return "a number"
+	case reflect.Pointer:
+		return goTypeWords(t.Elem())
+	}
+	return strings.ToLower(t.Name())
 }
 
 func isHex64(s string) bool {

@@ -19,6 +19,7 @@ import (
 	"fmt"
 	"io"
 	"io/fs"
+	"net"
 	"net/http"
 	"path"
 	"strings"
@@ -73,6 +74,74 @@ type Options struct {
 	Notebook []byte
 	// Assets are the page's files; nil means the embedded ones.
 	Assets fs.FS
+	// Hosts are host names accepted besides the loopback ones (127.0.0.1,
+	// localhost, ::1): the address the server was asked to listen on when
+	// that is not a loopback address.
+	Hosts []string
+}
+
+// MaxStandaloneBuilds is how many standalone pages the server builds at
+// once; more requests are answered 503 (each build holds the study, the
+// engine and the page in memory).
+const MaxStandaloneBuilds = 2
+
+// Loopback reports whether host (without port) names this machine's
+// loopback interface.
+func Loopback(host string) bool {
+	if host == "localhost" {
+		return true
+	}
+	ip := net.ParseIP(strings.Trim(host, "[]"))
+	return ip != nil && ip.IsLoopback()
+}
+
+// guard answers the requests a local server without authentication must
+// refuse: a Host that is not this machine (a page elsewhere reaching
+// 127.0.0.1 through DNS rebinding), a state-changing request from another
+// origin, and methods a path does not serve (docs/architecture.md, "The
+// local server").
+func guard(o Options, next http.Handler) http.Handler {
+	allowed := map[string]bool{}
+	for _, h := range o.Hosts {
+		allowed[strings.ToLower(h)] = true
+	}
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		h := w.Header()
+		h.Set("Content-Security-Policy", Policy)
+		h.Set("X-Content-Type-Options", "nosniff")
+		h.Set("Referrer-Policy", "no-referrer")
+		h.Set("Cache-Control", "no-cache")
+		host := r.Host
+		if h, _, err := net.SplitHostPort(host); err == nil {
+			host = h
+		}
+		if !Loopback(host) && !allowed[strings.ToLower(host)] {
+			http.Error(w, fmt.Sprintf("host %q is not served: this server answers only requests addressed to this machine (127.0.0.1, localhost)", r.Host), http.StatusForbidden)
+			return
+		}
+		post := r.URL.Path == "/standalone"
+		switch {
+		case post && r.Method != http.MethodPost:
+			w.Header().Set("Allow", "POST")
+			http.Error(w, "POST a notebook to get its standalone page", http.StatusMethodNotAllowed)
+			return
+		case !post && r.Method != http.MethodGet && r.Method != http.MethodHead:
+			w.Header().Set("Allow", "GET, HEAD")
+			http.Error(w, r.Method+" is not served here; the page's files are read with GET", http.StatusMethodNotAllowed)
+			return
+		}
+		if post {
+			if origin := r.Header.Get("Origin"); origin != "" && origin != "http://"+r.Host {
+				http.Error(w, fmt.Sprintf("a request from %q may not ask this server for a page; open the notebook at http://%s/", origin, r.Host), http.StatusForbidden)
+				return
+			}
+			if r.Header.Get("Sec-Fetch-Site") == "cross-site" {
+				http.Error(w, "a request from another site may not ask this server for a page", http.StatusForbidden)
+				return
+			}
+		}
+		next.ServeHTTP(w, r)
+	})
 }
 
 // Handler serves the page, its files, the notebook at /notebook.gapbook
@@ -85,29 +154,40 @@ func Handler(o Options) http.Handler {
 	}
 	files := http.FileServerFS(assets)
 	tags := &etags{fsys: assets, tag: map[string]string{}}
-	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
-		h := w.Header()
-		h.Set("Content-Security-Policy", Policy)
-		h.Set("X-Content-Type-Options", "nosniff")
-		h.Set("Referrer-Policy", "no-referrer")
-		h.Set("Cache-Control", "no-cache")
+	builds := make(chan struct{}, MaxStandaloneBuilds)
+	engine := &gzipped{fsys: assets}
+	return guard(o, http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		h := w.Header() // the security headers are set by guard
 		switch r.URL.Path {
 		case "/notebook.gapbook":
 			h.Set("Content-Type", "application/json")
 			w.Write(o.Notebook)
 			return
 		case "/standalone":
-			if r.Method != http.MethodPost {
-				http.Error(w, "POST a notebook to get its standalone page", http.StatusMethodNotAllowed)
+			if r.ContentLength > notebook.MaxFileBytes {
+				http.Error(w, fmt.Sprintf("the notebook is %d bytes; at most %d are accepted", r.ContentLength, notebook.MaxFileBytes), http.StatusRequestEntityTooLarge)
+				return
+			}
+			select {
+			case builds <- struct{}{}:
+				defer func() { <-builds }()
+			default:
+				h.Set("Retry-After", "2")
+				http.Error(w, fmt.Sprintf("the server is building %d standalone pages already; try again in a moment", MaxStandaloneBuilds), http.StatusServiceUnavailable)
 				return
 			}
 			doc, err := io.ReadAll(io.LimitReader(r.Body, notebook.MaxFileBytes+1))
 			if err == nil && len(doc) > notebook.MaxFileBytes {
-				err = fmt.Errorf("notebook larger than %d bytes", notebook.MaxFileBytes)
+				http.Error(w, fmt.Sprintf("the notebook is larger than %d bytes, the most accepted", notebook.MaxFileBytes), http.StatusRequestEntityTooLarge)
+				return
 			}
 			var page []byte
 			if err == nil {
-				page, err = Standalone(doc, assets)
+				// The page checks the notebook when it opens it; here only
+				// that it is one (notebook.Sniff holds no tree in memory).
+				if err = notebook.Sniff(doc); err == nil {
+					page, err = standalone(doc, assets, engine)
+				}
 			}
 			if err != nil {
 				http.Error(w, err.Error(), http.StatusBadRequest)
@@ -128,7 +208,31 @@ func Handler(o Options) http.Handler {
 			h.Set("ETag", tag)
 		}
 		files.ServeHTTP(w, r)
+	}))
+}
+
+// gzipped holds the engine compressed for standalone pages, made once.
+type gzipped struct {
+	fsys fs.FS
+	once sync.Once
+	b64  string
+	err  error
+}
+
+func (g *gzipped) get() (string, error) {
+	g.once.Do(func() {
+		wasm, err := fs.ReadFile(g.fsys, "gapbook.wasm")
+		if err != nil {
+			g.err = err
+			return
+		}
+		var gz bytes.Buffer
+		zw, _ := gzip.NewWriterLevel(&gz, gzip.BestCompression)
+		zw.Write(wasm)
+		zw.Close()
+		g.b64 = base64.StdEncoding.EncodeToString(gz.Bytes())
 	})
+	return g.b64, g.err
 }
 
 // etags computes, once per file, a tag from the file's contents.
@@ -194,12 +298,16 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 	if assets == nil {
 		assets = Assets()
 	}
-	if err := Missing(assets); err != nil {
-		return nil, err
-	}
 	// Problems in cell inputs are the page's to show; a file that cannot
 	// be opened at all is refused here.
 	if nb, err := notebook.Load(doc); nb == nil {
+		return nil, err
+	}
+	return standalone(doc, assets, &gzipped{fsys: assets})
+}
+
+func standalone(doc []byte, assets fs.FS, engine *gzipped) ([]byte, error) {
+	if err := Missing(assets); err != nil {
 		return nil, err
 	}
 	read := func(name string) (string, error) {
@@ -226,14 +334,10 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 			return nil, err
 		}
 	}
-	wasm, err := fs.ReadFile(assets, "gapbook.wasm")
+	wasm, err := engine.get()
 	if err != nil {
 		return nil, err
 	}
-	var gz bytes.Buffer
-	zw, _ := gzip.NewWriterLevel(&gz, gzip.BestCompression)
-	zw.Write(wasm)
-	zw.Close()
 
 	// JSON allows \u003c for "<" inside strings, and "<" occurs nowhere else,
 	// so the notebook cannot close its block.
@@ -247,7 +351,7 @@ func Standalone(doc []byte, assets fs.FS) ([]byte, error) {
 	b.WriteString("<script type=\"text/plain\" id=\"src-app\">" + parts[0] + "</script>\n")
 	b.WriteString("<script type=\"text/plain\" id=\"src-worker\">" + parts[1] + "</script>\n")
 	b.WriteString("<script type=\"text/plain\" id=\"src-wasm-exec\">" + parts[2] + "</script>\n")
-	b.WriteString("<script type=\"text/plain\" id=\"src-wasm\">" + base64.StdEncoding.EncodeToString(gz.Bytes()) + "</script>\n")
+	b.WriteString("<script type=\"text/plain\" id=\"src-wasm\">" + wasm + "</script>\n")
 	b.WriteString("<script type=\"application/json\" id=\"src-notebook\">" + docText + "</script>\n")
 	b.WriteString("<script>" + boot + "</script>\n")
 

@@ -12,6 +12,7 @@ import (
 	"os/signal"
 	"path/filepath"
 	"strings"
+	"time"
 
 	"gapbook/cmd/gapbook/batch"
 	"gapbook/examples"
@@ -22,10 +23,13 @@ import (
 const usage = `gapbook: guaranteed error bounds for nonlinear diffusion, as a notebook
 
 usage:
-  gapbook run FILE [--json] [--report out.html] [--export DIR]
-                                                  evaluate a notebook; --export writes
+  gapbook run FILE [--json] [--fields] [--report out.html] [--export DIR]
+                                                  evaluate a notebook; --fields adds tables
+                                                  and fields to the JSON; --export writes
                                                   tables (CSV), plots (SVG), fields (VTU)
-  gapbook serve [--addr 127.0.0.1:PORT] [FILE]    serve the browser notebook
+  gapbook serve [--addr 127.0.0.1:PORT] [--public] [FILE]
+                                                  serve the browser notebook; --public allows
+                                                  a non-loopback address (no authentication)
   gapbook export FILE --standalone out.html       write a single-file page
 `
 
@@ -59,6 +63,8 @@ func run(args []string) int {
 		switch a := args[i]; a {
 		case "--json", "-json":
 			o.JSON = true
+		case "--fields", "-fields":
+			o.JSON, o.Fields = true, true
 		case "--report", "-report":
 			if i+1 >= len(args) {
 				fmt.Fprintln(os.Stderr, "gapbook run: --report needs a file name")
@@ -101,9 +107,11 @@ func run(args []string) int {
 // serve parses `gapbook serve [--addr HOST:PORT] [FILE]` and serves the
 // page until interrupted; without FILE it serves the default study.
 func serve(args []string) int {
-	addr, file := "127.0.0.1:8787", ""
+	addr, file, public := "127.0.0.1:8787", "", false
 	for i := 0; i < len(args); i++ {
 		switch a := args[i]; {
+		case a == "--public":
+			public = true
 		case a == "--addr" || a == "-addr":
 			if i+1 >= len(args) {
 				fmt.Fprintln(os.Stderr, "gapbook serve: --addr needs HOST:PORT, for example 127.0.0.1:8787")
@@ -136,6 +144,20 @@ func serve(args []string) int {
 	if err := web.Missing(web.Assets()); err != nil {
 		fmt.Fprintf(os.Stderr, "gapbook serve: %v\nThe page will say so too.\n", err)
 	}
+	host, _, err := net.SplitHostPort(addr)
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook serve: --addr %q: %v; want HOST:PORT, for example 127.0.0.1:8787\n", addr, err)
+		return 2
+	}
+	var hosts []string
+	if !web.Loopback(host) {
+		if !public {
+			fmt.Fprintf(os.Stderr, "gapbook serve: %s is not a loopback address: the server has no authentication, and anyone who reaches it could read and run your studies.\nServe on 127.0.0.1 (the default), or add --public to serve on %s anyway.\n", host, addr)
+			return 2
+		}
+		fmt.Fprintf(os.Stderr, "gapbook serve: WARNING: serving on %s, which other machines may reach; the server has no authentication.\n", addr)
+		hosts = append(hosts, host)
+	}
 	ln, err := net.Listen("tcp", addr)
 	if err != nil {
 		fmt.Fprintf(os.Stderr, "gapbook serve: %v\n", err)
@@ -148,7 +170,7 @@ func serve(args []string) int {
 	fmt.Printf("gapbook: serving %s at http://%s/  (Ctrl+C stops)\n", name, ln.Addr())
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
-	srv := &http.Server{Handler: web.Handler(web.Options{Notebook: doc})}
+	srv := &http.Server{Handler: web.Handler(web.Options{Notebook: doc, Hosts: hosts}), ReadHeaderTimeout: 10 * time.Second}
 	go func() { <-ctx.Done(); srv.Close() }()
 	if err := srv.Serve(ln); err != nil && !errors.Is(err, http.ErrServerClosed) {
 		fmt.Fprintf(os.Stderr, "gapbook serve: %v\n", err)
@@ -193,7 +215,7 @@ func export(args []string) int {
 		fmt.Fprintf(os.Stderr, "gapbook export: %s: %v\n", file, err)
 		return 2
 	}
-	if err := os.WriteFile(out, page, 0o644); err != nil {
+	if err := batch.WriteFileAtomic(out, page); err != nil {
 		fmt.Fprintf(os.Stderr, "gapbook export: %v\n", err)
 		return 2
 	}

@@ -6,10 +6,13 @@ package batch
 import (
 	"context"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
+	"path/filepath"
 	"time"
 
 	"gapbook/notebook"
@@ -22,6 +25,9 @@ type Options struct {
 	JSON bool
 	// Report, when set, is the path of an HTML report to write.
 	Report string
+	// Fields adds to the JSON every cell's tables and fields (mesh nodes,
+	// triangles and values).
+	Fields bool
 	// Export, when set, is a directory that receives every table as CSV,
 	// plot as SVG and field as .vtu (see Export).
 	Export string
@@ -39,7 +45,11 @@ type Cell struct {
 	// Intervals maps each interval's name to its ends (omitted when the
 	// cell has none).
 	Intervals map[string]Interval `json:"intervals,omitempty"`
-	Digest    string              `json:"digest,omitempty"`
+	// Tables and Fields are the cell's tables and fields (with
+	// Options.Fields; non-finite numbers as "NaN", "Inf", "-Inf").
+	Tables []notebook.Table `json:"tables,omitempty"`
+	Fields []notebook.Field `json:"fields,omitempty"`
+	Digest string           `json:"digest,omitempty"`
 	// Reproduced is "yes" or "no" when the file had results for the same
 	// inputs, else empty.
 	Reproduced string `json:"reproduced,omitempty"`
@@ -127,7 +137,11 @@ func Run(ctx context.Context, path string, o Options) (*Output, bool, error) {
 	if err != nil {
 		return nil, false, err
 	}
-	out := output(nb, ev)
+	if ev.Canceled {
+		// Stopped (Ctrl+C): half an evaluation is no result to keep.
+		return nil, false, fmt.Errorf("interrupted before every cell was computed; no JSON, report or export written")
+	}
+	out := output(nb, ev, o.Fields)
 	if o.JSON {
 		b, err := json.MarshalIndent(out, "", "  ")
 		if err != nil {
@@ -138,12 +152,12 @@ func Run(ctx context.Context, path string, o Options) (*Output, bool, error) {
 		}
 	}
 	if o.Report != "" {
-		if err := os.WriteFile(o.Report, notebook.Report(nb, ev), 0o644); err != nil {
+		if err := WriteFileAtomic(o.Report, notebook.Report(nb, ev)); err != nil {
 			return nil, false, err
 		}
 	}
 	if o.Export != "" {
-		paths, err := Export(o.Export, ev)
+		paths, err := Export(ctx, o.Export, ev)
 		if err != nil {
 			return nil, false, err
 		}
@@ -153,7 +167,7 @@ func Run(ctx context.Context, path string, o Options) (*Output, bool, error) {
 	return out, out.OK, nil
 }
 
-func output(nb *notebook.Notebook, ev *notebook.Evaluation) *Output {
+func output(nb *notebook.Notebook, ev *notebook.Evaluation, fields bool) *Output {
 	out := &Output{Title: nb.Title, OK: true, Cells: []Cell{}}
 	for _, o := range ev.Cells {
 		bc := Cell{ID: o.ID, Kind: o.Kind, Status: o.Status, Values: map[string]Value{}, Digest: o.Digest, Reproduced: o.Reproduced}
@@ -178,8 +192,58 @@ func output(nb *notebook.Notebook, ev *notebook.Evaluation) *Output {
 				}
 				bc.Intervals[iv.Name] = Interval{Lower: finite(iv.Lower), Upper: finite(iv.Upper), Label: iv.Label, Unit: iv.Unit, Ends: iv.Ends}
 			}
+			if fields {
+				bc.Tables, bc.Fields = o.Results.Tables, o.Results.Fields
+			}
 		}
 		out.Cells = append(out.Cells, bc)
 	}
 	return out
+}
+
+// WriteFileAtomic writes data to path so that path never holds a part of
+// it: a temporary file beside it is written, synced and renamed over path.
+// On failure path is as it was and the error names it.
+func WriteFileAtomic(path string, data []byte) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	tmp, err := os.CreateTemp(dir, "."+base+".partial-*")
+	if err != nil {
+		return fmt.Errorf("cannot write %s: %w", path, unwrapPath(err))
+	}
+	name := tmp.Name()
+	_, err = tmp.Write(data)
+	if err == nil {
+		err = tmp.Sync()
+	}
+	if cerr := tmp.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Chmod(name, 0o644)
+	}
+	if err == nil {
+		err = os.Rename(name, path)
+	}
+	if err != nil {
+		os.Remove(name)
+		return fmt.Errorf("cannot write %s: %w", path, unwrapPath(err))
+	}
+	return nil
+}
+
+// unwrapPath drops the path of an *fs.PathError (the message names the
+// file the user asked for, not the temporary one).
+func unwrapPath(err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	var le *os.LinkError
+	if errors.As(err, &le) {
+		return le.Err
+	}
+	return err
 }

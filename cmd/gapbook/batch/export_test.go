@@ -4,6 +4,8 @@ import (
 	"bytes"
 	"context"
 	"encoding/csv"
+	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -83,5 +85,52 @@ func TestFileWord(t *testing.T) {
 		if got := fileWord(in); got != want {
 			t.Errorf("fileWord(%q) = %q, want %q", in, got, want)
 		}
+	}
+}
+
+// With Fields the JSON carries every cell's tables and fields: the solution
+// on the mesh nodes, and the indicators per triangle, which add up to the
+// majorant (docs/math.md §4.7).
+func TestRunJSONFields(t *testing.T) {
+	var out bytes.Buffer
+	if _, ok, err := Run(context.Background(), "../../../examples/default.gapbook", Options{JSON: true, Fields: true, Stdout: &out}); err != nil || !ok {
+		t.Fatalf("ok=%v err=%v", ok, err)
+	}
+	var parsed struct {
+		Cells []struct {
+			ID     string
+			Values map[string]Value
+			Tables []notebook.Table
+			Fields []notebook.Field
+		}
+	}
+	if err := json.Unmarshal(out.Bytes(), &parsed); err != nil {
+		t.Fatal(err)
+	}
+	var sum, majorant float64
+	found := 0
+	for _, c := range parsed.Cells {
+		for _, f := range c.Fields {
+			want := len(f.X)
+			if f.PerCell {
+				want = len(f.Tri)
+			}
+			if len(f.Values) != want || len(f.Y) != len(f.X) {
+				t.Errorf("cell %s field %s: %d values for %d nodes, %d triangles", c.ID, f.Name, len(f.Values), len(f.X), len(f.Tri))
+			}
+			if f.Name == "indicators" {
+				for _, v := range f.Values {
+					sum += v
+				}
+				majorant = *c.Values["majorant"].Value
+				found++
+			}
+		}
+		if c.ID == "solve" && (len(c.Tables) == 0 || c.Tables[0].Name != "newton") {
+			t.Errorf("solve cell without its Newton table in the JSON")
+		}
+	}
+	if found != 1 || math.Abs(sum-majorant) > 1e-9*majorant {
+		t.Errorf("indicators add up to %.12g, majorant %.12g", sum, majorant)
 	}
 }
