@@ -10,7 +10,7 @@ func fmtG(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
 
 func checkAlpha(who string, alpha float64) error {
 	if !(alpha > 1) || math.IsInf(alpha, 0) {
-		return fmt.Errorf("%s: growth exponent α = %s is not allowed; α must be a finite number > 1", who, fmtG(alpha))
+		return fmt.Errorf("%s: growth exponent p = %s is not allowed; p must be a finite number > 1", who, fmtG(alpha))
 	}
 	return nil
 }
@@ -87,7 +87,7 @@ func (p FastPow) Of(t float64) float64 {
 }
 
 func (p powerPot) Growth() float64 { return p.alpha }
-func (p powerPot) String() string  { return "power(α=" + fmtG(p.alpha) + ")" }
+func (p powerPot) String() string  { return "power(p=" + fmtG(p.alpha) + ")" }
 func (p powerPot) Modulus() Modulus {
 	return Modulus{Bounds: []Bound{powerBound(p.alpha, 0)}, Label: Guaranteed}
 }
@@ -222,7 +222,7 @@ func (p regPower) Conjugate(s float64) (gs, ds float64) {
 
 func (p regPower) Growth() float64 { return p.alpha }
 func (p regPower) String() string {
-	return "regularised power(α=" + fmtG(p.alpha) + ", ε=" + fmtG(p.eps) + ")"
+	return "regularised power(p=" + fmtG(p.alpha) + ", ε=" + fmtG(p.eps) + ")"
 }
 func (p regPower) Modulus() Modulus {
 	return Modulus{Bounds: []Bound{powerBound(p.alpha, p.eps)}, Label: Guaranteed}
@@ -248,7 +248,7 @@ type powerSum struct{ a, b, alpha float64 }
 // Newton.
 func PowerSum(a, b, alpha float64) (Potential, error) {
 	if !(alpha > 2) || math.IsInf(alpha, 0) {
-		return nil, fmt.Errorf("power sum potential: α = %s is not allowed; α must be a finite number > 2", fmtG(alpha))
+		return nil, fmt.Errorf("power sum potential: p = %s is not allowed; p must be a finite number > 2", fmtG(alpha))
 	}
 	if !(a > 0) || math.IsInf(a, 0) {
 		return nil, fmt.Errorf("power sum potential: a = %s is not allowed; a must be a finite number > 0", fmtG(a))
@@ -271,7 +271,7 @@ func (p powerSum) Conjugate(s float64) (gs, ds float64) {
 
 func (p powerSum) Growth() float64 { return p.alpha }
 func (p powerSum) String() string {
-	return "power sum(a=" + fmtG(p.a) + ", b=" + fmtG(p.b) + ", α=" + fmtG(p.alpha) + ")"
+	return "power sum(a=" + fmtG(p.a) + ", b=" + fmtG(p.b) + ", p=" + fmtG(p.alpha) + ")"
 }
 
 // Modulus: the Bregman distance is the sum of those of the two terms, so both
@@ -354,7 +354,7 @@ func Custom(name string, g func(t float64) (g, g1, g2 float64), alpha float64) (
 	_, d100, _ := g(100)
 	_, d1000, _ := g(1000)
 	if !(d100 > 0) || !(1+math.Log10(d1000/d100) >= 1+(alpha-1)/4) {
-		return nil, fmt.Errorf("%s: not superlinear with growth α = %s: g'(100) = %s, g'(1000) = %s, expected a ratio near 10^(α−1) = %s", who, fmtG(alpha), fmtG(d100), fmtG(d1000), fmtG(math.Pow(10, alpha-1)))
+		return nil, fmt.Errorf("%s: not superlinear with growth p = %s: g'(100) = %s, g'(1000) = %s, expected a ratio near 10^(p−1) = %s", who, fmtG(alpha), fmtG(d100), fmtG(d1000), fmtG(math.Pow(10, alpha-1)))
 	}
 	return custom{name, g, alpha}, nil
 }

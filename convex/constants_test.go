@@ -80,6 +80,6 @@ func ExamplePower() {
 	fmt.Println(err)
 	// Output:
 	// D_G = 2.448000e-15
-	// power(α=1.5) guaranteed
-	// power potential: growth exponent α = 0.5 is not allowed; α must be a finite number > 1
+	// power(p=1.5) guaranteed
+	// power potential: growth exponent p = 0.5 is not allowed; p must be a finite number > 1
 }

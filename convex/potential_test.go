@@ -64,12 +64,12 @@ func TestConstructorErrors(t *testing.T) {
 		err  error
 		want []string
 	}{
-		{"power α=1", second(Power(1)), []string{"α = 1", "> 1"}},
+		{"power α=1", second(Power(1)), []string{"p = 1", "> 1"}},
 		{"power α=NaN", second(Power(math.NaN())), []string{"NaN", "> 1"}},
 		{"quadratic κ=0", second(Quadratic(0)), []string{"κ = 0", "> 0"}},
 		{"regpower ε<0", second(RegPower(2, -1)), []string{"ε = -1", "≥ 0"}},
-		{"regpower α=0.5", second(RegPower(0.5, 1)), []string{"α = 0.5"}},
-		{"powersum α=2", second(PowerSum(1, 1, 2)), []string{"α = 2", "> 2"}},
+		{"regpower α=0.5", second(RegPower(0.5, 1)), []string{"p = 0.5"}},
+		{"powersum α=2", second(PowerSum(1, 1, 2)), []string{"p = 2", "> 2"}},
 		{"powersum a=0", second(PowerSum(0, 1, 3)), []string{"a = 0", "> 0"}},
 		{"powersum b=-1", second(PowerSum(1, -1, 3)), []string{"b = -1", "> 0"}},
 		{"custom nil", second(Custom("f", nil, 2)), []string{`"f"`, "no formula"}},
@@ -97,7 +97,7 @@ func TestConstructorErrors(t *testing.T) {
 			r := math.Sqrt(1 + t*t)
 			return r - 1, t / r, 1 / (r * r * r)
 		}, 2)), []string{"not superlinear", "g'(1000)"}},
-		{"custom α=1", second(Custom("q", func(t float64) (float64, float64, float64) { return t * t / 2, t, 1 }, 1)), []string{"α = 1"}},
+		{"custom α=1", second(Custom("q", func(t float64) (float64, float64, float64) { return t * t / 2, t, 1 }, 1)), []string{"p = 1"}},
 	}
 	for _, c := range cases {
 		if c.err == nil {

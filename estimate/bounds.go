@@ -497,7 +497,7 @@ func (t *Terms) Bounds(c Constant, mod convex.Modulus) (*Result, error) {
 		}
 	}
 	if len(nb.bounds) == 0 {
-		return nil, fmt.Errorf("estimate: the potential has no modulus in the norm of its growth α = %g; supply an estimated one in Options.Modulus (its numbers are then labelled estimate)", t.Alpha)
+		return nil, fmt.Errorf("estimate: the potential has no modulus in the norm of its growth p = %g; supply an estimated one in Options.Modulus (its numbers are then labelled estimate)", t.Alpha)
 	}
 	r := &Result{Terms: t, Label: convex.Guaranteed}
 	if c.Label != convex.Guaranteed || mod.Label != convex.Guaranteed {

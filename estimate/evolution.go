@@ -293,7 +293,7 @@ func NewEvolution(s *fem.P1, p *problem.Problem, o EvolutionOptions) (*Evolution
 		}
 	}
 	if len(b.nb.bounds) == 0 {
-		return nil, fmt.Errorf("evolution bounds: the potential has no modulus in the norm of its growth α = %g; supply one in EvolutionOptions.Modulus", alpha)
+		return nil, fmt.Errorf("evolution bounds: the potential has no modulus in the norm of its growth p = %g; supply one in EvolutionOptions.Modulus", alpha)
 	}
 	b.norms = make([]float64, len(b.nb.bounds))
 	nc, nn := s.Mesh.NumCells(), s.Mesh.NumNodes()

@@ -52,7 +52,7 @@ func (boundKind) Inputs() []notebook.Input {
 		{Name: "newton", Type: notebook.Integer, Default: 3, Low: notebook.AtLeast(0), High: notebook.AtMost(50),
 			Doc: "Newton steps that bring the equilibrated flux closer to the exact one (sharper bounds, never less valid)"},
 		{Name: "constant", Type: notebook.Choice, Default: constBest, Choices: []string{constBest, constWidth},
-			Doc: "Friedrichs constant of the residual term: the best guaranteed one (for α = 2 the Crouzeix–Raviart eigenvalue bound when smaller than the width bound) or the width bound alone"},
+			Doc: "Friedrichs constant of the residual term: the best guaranteed one (for p = 2 the Crouzeix–Raviart eigenvalue bound when smaller than the width bound) or the width bound alone"},
 		{Name: "degree", Type: notebook.Integer, Default: estimate.DefaultDegree, Low: notebook.AtLeast(2), High: notebook.AtMost(8),
 			Doc: "exactness degree of the quadrature rule of the gap integrals; the terms with f use the solver's load rule, whose samples of f they share (the guarantee holds up to these quadratures, both listed in the assumptions)"},
 		{Name: "minorant", Type: notebook.Bool, Default: true,

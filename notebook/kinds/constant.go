@@ -21,7 +21,7 @@ func (constantKind) Intervals() []notebook.IntervalDef {
 
 func (constantKind) Name() string { return "constant" }
 func (constantKind) Doc() string {
-	return "Friedrichs constant C in ‖w‖_α ≤ C ‖∇w‖_α (w = 0 on the boundary) and, on convex domains, the Poincaré constant, with guaranteed bounds and an estimate."
+	return "Friedrichs constant C in ‖w‖_p ≤ C ‖∇w‖_p (w = 0 on the boundary) and, on convex domains, the Poincaré constant, with guaranteed bounds and an estimate."
 }
 func (constantKind) Inputs() []notebook.Input {
 	return []notebook.Input{
@@ -29,7 +29,7 @@ func (constantKind) Inputs() []notebook.Input {
 		{Name: "p", Type: notebook.Number, Default: 0.0, Low: notebook.Above(1), High: notebook.AtMost(100),
 			Doc: "exponent p > 1 of the norms; leave it out to take the problem's growth exponent"},
 		{Name: "eigenvalue", Type: notebook.Bool, Default: true,
-			Doc: "also estimate the first eigenvalue of the α-Laplacian on the mesh (an estimate, not a bound: a discrete eigenvalue lies above the exact one)"},
+			Doc: "also estimate the first eigenvalue of the p-Laplacian on the mesh (an estimate, not a bound: a discrete eigenvalue lies above the exact one)"},
 	}
 }
 
@@ -50,13 +50,13 @@ func (constantKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook
 	res := &notebook.Results{Scalars: []notebook.Scalar{
 		{Name: "p", Value: alpha, Label: notebook.Reference, Unit: "exponent (input)"},
 		{Name: "width", Value: m.MinWidth(), Label: notebook.Reference, Unit: "width of Ω, exact geometry"},
-		{Name: "width_bound", Value: w.Value, Label: notebook.Guaranteed, Unit: "C_F ≤ ℓ/((α−1)^{1/α} π_α), strip of width ℓ"},
+		{Name: "width_bound", Value: w.Value, Label: notebook.Guaranteed, Unit: "C_F ≤ ℓ/((p−1)^{1/p} π_p), strip of width ℓ"},
 	}}
 	best := w.Value
 	if d.Problem.Domain.Convex() {
 		diam := d.Problem.Domain.Diameter()
 		res.Scalars = append(res.Scalars, notebook.Scalar{Name: "poincare_bound", Value: convex.PoincareConvex(alpha, diam), Label: notebook.Guaranteed,
-			Unit: fmt.Sprintf("min_c ‖w − c‖_α ≤ C ‖∇w‖_α on the convex domain of diameter %.6g", diam)})
+			Unit: fmt.Sprintf("min_c ‖w − c‖_p ≤ C ‖∇w‖_p on the convex domain of diameter %.6g", diam)})
 	}
 	if alpha == 2 && m.Dim == 2 {
 		c.Progress(0.2, "Crouzeix–Raviart eigenvalue")
@@ -76,7 +76,7 @@ func (constantKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook
 	}
 	res.Scalars = append(res.Scalars, notebook.Scalar{Name: "friedrichs", Value: best, Label: notebook.Guaranteed, Unit: "best guaranteed C_F above"})
 	if in.Bool("eigenvalue") {
-		c.Progress(0.6, "α-Laplacian eigenvalue")
+		c.Progress(0.6, "p-Laplacian eigenvalue")
 		s, err := fem.NewP1(m)
 		if err != nil {
 			return nil, notebook.FieldErr("mesh", "%v", err)
@@ -90,7 +90,7 @@ func (constantKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook
 		}
 		res.Scalars = append(res.Scalars,
 			notebook.Scalar{Name: "p_eigenvalue", Value: lam, Label: notebook.Estimate, Unit: "first eigenvalue of the p-Laplacian, P1 (lies above the exact one)"},
-			notebook.Scalar{Name: "eigen_estimate", Value: ce.Value, Label: notebook.Estimate, Unit: "C_F ≈ λ_α^{−1/α} (lies below the exact one)"})
+			notebook.Scalar{Name: "eigen_estimate", Value: ce.Value, Label: notebook.Estimate, Unit: "C_F ≈ λ_p^{−1/p} (lies below the exact one)"})
 	}
 	return res, nil
 }

@@ -17,7 +17,7 @@ type sweepKind struct{}
 
 func (sweepKind) Name() string { return "sweep" }
 func (sweepKind) Doc() string {
-	return "Rerun a chain of earlier cells for each value of one input (the exponent α, a mesh size, ε) and compare chosen results in one table and one plot."
+	return "Rerun a chain of earlier cells for each value of one input (the exponent p, a mesh size, ε) and compare chosen results in one table and one plot."
 }
 func (sweepKind) Inputs() []notebook.Input {
 	return []notebook.Input{
