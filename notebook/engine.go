@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"maps"
 	"math"
+	"runtime"
 	"runtime/debug"
 	"slices"
 	"strconv"
@@ -132,6 +133,18 @@ type Engine struct {
 	order []string
 	// Limit is the number of cached cell results kept (default 256).
 	Limit int
+	// Workers is how many members of a multi-member cell (the rows of a
+	// sweep) are computed at once; 0 means one per core. The results do
+	// not depend on it: each member is computed alone from the same inputs
+	// and the results are put together in member order.
+	Workers int
+}
+
+func (e *Engine) workers() int {
+	if e.Workers > 0 {
+		return e.Workers
+	}
+	return runtime.NumCPU()
 }
 
 // NewEngine returns an engine with an empty cache.
@@ -592,19 +605,53 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 		}
 	}
 	res := &SweepResult{Table: Table{Name: "sweep", Title: "sweep of " + s.Cell + "." + s.Input, Columns: []Column{{Name: s.Input}}}}
+	// The members run on e.workers() goroutines; each is an evaluation of
+	// its own, so the order in which they finish changes nothing.
+	runs := make([]*Evaluation, len(s.Values))
+	fails := make([]error, len(s.Values))
+	var mu sync.Mutex // serialises the progress callbacks
+	rows := make(chan int)
+	var wg sync.WaitGroup
+	for range min(e.workers(), len(s.Values)) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for row := range rows {
+				b, _ := json.Marshal(s.Values[row])
+				opts := Options{Override: &Override{s.Cell, s.Input, b}, Only: chain, before: before}
+				if progress != nil {
+					opts.Progress = func(p Progress) {
+						mu.Lock()
+						defer mu.Unlock()
+						progress(row, p)
+					}
+				}
+				ev, err := e.Evaluate(ctx, nb, opts)
+				if err == nil && ev.Canceled {
+					ev = nil // a member cut short is not kept
+				}
+				runs[row], fails[row] = ev, err
+			}
+		}()
+	}
+	for row := range s.Values {
+		if ctx.Err() != nil {
+			break
+		}
+		rows <- row
+	}
+	close(rows)
+	wg.Wait()
 	col := map[string]int{}
 	for row, v := range s.Values {
-		if ctx.Err() != nil {
-			return res, ctx.Err()
+		if fails[row] != nil {
+			return nil, fmt.Errorf("sweep: %v", fails[row])
 		}
-		b, _ := json.Marshal(v)
-		opts := Options{Override: &Override{s.Cell, s.Input, b}, Only: chain, before: before}
-		if progress != nil {
-			opts.Progress = func(p Progress) { progress(row, p) }
-		}
-		ev, err := e.Evaluate(ctx, nb, opts)
-		if err != nil {
-			return nil, fmt.Errorf("sweep: %v", err)
+		ev := runs[row]
+		if ev == nil {
+			// Cancelled: the members finished before the first missing
+			// one are kept.
+			break
 		}
 		res.Runs = append(res.Runs, ev)
 		msg := ""
@@ -648,6 +695,9 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 			r = append(r, math.NaN())
 		}
 		res.Table.Rows[i] = r
+	}
+	if err := ctx.Err(); err != nil {
+		return res, err
 	}
 	return res, nil
 }

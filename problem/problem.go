@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"strings"
+	"sync"
 
 	"gapbook/convex"
 	"gapbook/expr"
@@ -315,7 +316,15 @@ func potential(s Spec) (convex.Potential, error) {
 		if perr != nil {
 			return nil, inputErr("g", "%s", FormulaMessage(perr))
 		}
-		G, err = convex.Custom("g(t) = "+s.G, func(t float64) (float64, float64, float64) { return gf.Scalar(t) }, alpha)
+		// The formula keeps scratch space: members of a sweep may evaluate
+		// the potential at once, each with a copy of its own.
+		copies := sync.Pool{New: func() any { return gf.Clone() }}
+		G, err = convex.Custom("g(t) = "+s.G, func(t float64) (float64, float64, float64) {
+			f := copies.Get().(*expr.Formula)
+			g, g1, g2 := f.Scalar(t)
+			copies.Put(f)
+			return g, g1, g2
+		}, alpha)
 	default:
 		return nil, inputErr("potential", "unknown family %q; known: %s", s.Family, strings.Join(Families, ", "))
 	}

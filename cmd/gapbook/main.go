@@ -11,6 +11,7 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"time"
 
@@ -23,8 +24,9 @@ import (
 const usage = `gapbook: guaranteed error bounds for nonlinear diffusion, as a notebook
 
 usage:
-  gapbook run FILE [--json] [--fields] [--report out.html] [--export DIR]
-                                                  evaluate a notebook; --fields adds tables
+  gapbook run FILE [--json] [--fields] [--workers N] [--report out.html] [--export DIR]
+                                                  evaluate a notebook (sweep members on N
+                                                  workers, default all cores); --fields adds tables
                                                   and fields to the JSON; --export writes
                                                   tables (CSV), plots (SVG), fields (VTU)
   gapbook serve [--addr 127.0.0.1:PORT] [--public] [FILE]
@@ -65,6 +67,18 @@ func run(args []string) int {
 			o.JSON = true
 		case "--fields", "-fields":
 			o.JSON, o.Fields = true, true
+		case "--workers", "-workers":
+			if i+1 >= len(args) {
+				fmt.Fprintln(os.Stderr, "gapbook run: --workers needs a number of workers, for example 2")
+				return 2
+			}
+			i++
+			n, err := strconv.Atoi(args[i])
+			if err != nil || n < 1 {
+				fmt.Fprintf(os.Stderr, "gapbook run: --workers %q: want a whole number ≥ 1\n", args[i])
+				return 2
+			}
+			o.Workers = n
 		case "--report", "-report":
 			if i+1 >= len(args) {
 				fmt.Fprintln(os.Stderr, "gapbook run: --report needs a file name")

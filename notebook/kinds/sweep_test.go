@@ -1,6 +1,7 @@
 package kinds
 
 import (
+	"context"
 	"math"
 	"strings"
 	"testing"
@@ -127,6 +128,52 @@ func TestKindInputErrors(t *testing.T) {
 		o := ev.Cell("x")
 		if o.Status != notebook.StatusError || !strings.HasPrefix(o.Err.Error(), tc.want) {
 			t.Errorf("got %v\nwant prefix %q", o.Err, tc.want)
+		}
+	}
+}
+
+// A sweep's members run on several goroutines; the table is the same bit
+// for bit with one worker and with two, for a catalogue and a formula
+// potential (whose formula keeps scratch space of its own per member).
+func TestSweepWorkersIdentical(t *testing.T) {
+	for _, pot := range []map[string]any{
+		{"domain": "L-shape", "p": 3},
+		{"domain": "rectangle", "potential": "formula", "g": "t^3/3 + t^2/2", "p": 3},
+	} {
+		doc := `{"gapbook": 2, "cells": [` + strings.Join([]string{
+			kc("p", "problem", pot),
+			kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
+			kc("s", "solve", map[string]any{"mesh": "m"}),
+			kc("sw", "sweep", map[string]any{"cell": "m", "input": "cells", "values": []float64{2, 3, 4, 5, 6, 7}, "through": "s"}),
+		}, ",") + `]}`
+		var tables [2]*notebook.Table
+		for w := 1; w <= 2; w++ {
+			nb, err := notebook.Load([]byte(doc))
+			if err != nil {
+				t.Fatal(err)
+			}
+			e := notebook.NewEngine()
+			e.Workers = w
+			ev, err := e.Evaluate(context.Background(), nb, notebook.Options{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			tb, ok := okCell(t, ev, "sw").Table("sweep")
+			if !ok {
+				t.Fatal("no sweep table")
+			}
+			tables[w-1] = tb
+		}
+		a, b := tables[0], tables[1]
+		if len(a.Rows) != 6 || len(a.Rows) != len(b.Rows) {
+			t.Fatalf("%v: %d and %d rows", pot, len(a.Rows), len(b.Rows))
+		}
+		for i := range a.Rows {
+			for j := range a.Rows[i] {
+				if math.Float64bits(a.Rows[i][j]) != math.Float64bits(b.Rows[i][j]) {
+					t.Errorf("%v: row %d column %s: %v with one worker, %v with two", pot, i, a.Columns[j].Name, a.Rows[i][j], b.Rows[i][j])
+				}
+			}
 		}
 	}
 }

@@ -25,6 +25,9 @@ type Options struct {
 	JSON bool
 	// Report, when set, is the path of an HTML report to write.
 	Report string
+	// Workers is how many members of a sweep are computed at once (0: one
+	// per core); results do not depend on it.
+	Workers int
 	// Fields adds to the JSON every cell's tables and fields (mesh nodes,
 	// triangles and values).
 	Fields bool
@@ -115,7 +118,9 @@ func Run(ctx context.Context, path string, o Options) (*Output, bool, error) {
 	}
 	start := time.Now()
 	cellStart := start
-	ev, err := notebook.NewEngine().Evaluate(ctx, nb, notebook.Options{Progress: func(p notebook.Progress) {
+	engine := notebook.NewEngine()
+	engine.Workers = o.Workers
+	ev, err := engine.Evaluate(ctx, nb, notebook.Options{Progress: func(p notebook.Progress) {
 		if !p.Done {
 			if p.Fraction == 0 {
 				cellStart = time.Now()
