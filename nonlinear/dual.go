@@ -62,7 +62,7 @@ func (sv *solver) primalDual(ctx context.Context, lv *level, G convex.Potential,
 			return true, nil
 		}
 		if it >= sv.o.MaxIter {
-			sv.reason = fmt.Sprintf("no convergence in %d primal-dual Newton steps on level %d (%d unknowns)", sv.o.MaxIter, lv.index, lv.s.NumFree())
+			sv.fail(StepsExhausted, "no convergence in %d primal-dual Newton steps on level %d (%d unknowns)", sv.o.MaxIter, lv.index, lv.s.NumFree())
 			return false, nil
 		}
 		reg := sv.o.Reg * rms(lv) * math.Min(1, math.Pow(0.1, 1/(G.Growth()-1))/1e-6)
@@ -150,7 +150,7 @@ func (sv *solver) primalDual(ctx context.Context, lv *level, G convex.Potential,
 			step.Energy = J
 			sv.record(lv, step)
 			if it > 0 && sv.hist[len(sv.hist)-2].StepLength == 0 {
-				sv.reason = fmt.Sprintf("line search failed twice on level %d: J does not decrease along the Newton direction", lv.index)
+				sv.fail(LineSearchFailed, "line search failed twice on level %d: J does not decrease along the Newton direction", lv.index)
 				return false, nil
 			}
 			continue

@@ -169,18 +169,26 @@ func solveFailure(p *problem.Problem, err error, tol float64) error {
 	return notebook.FieldErr("max_newton", "%v", err)
 }
 
-// stagnated reports whether the decrement stopped falling over the last
-// steps of a history.
+// stagnated reports whether the decrement stopped falling at rounding
+// level: over the last stage alone (the steps on the last level with the
+// last continuation parameter; the history runs over all of them), at
+// least eight steps, the decrement below 1e-8 and no longer halving.
 func stagnated(h []nonlinear.Step) bool {
-	if len(h) < 8 {
+	if len(h) == 0 {
+		return false
+	}
+	last := h[len(h)-1]
+	i := len(h)
+	for i > 0 && h[i-1].Level == last.Level && h[i-1].Epsilon == last.Epsilon {
+		i--
+	}
+	stage := h[i:]
+	if len(stage) < 8 || !(last.Decrement < 1e-8) {
 		return false
 	}
 	best, recent := math.Inf(1), math.Inf(1)
-	for i, s := range h {
-		if s.StepLength == 0 {
-			continue
-		}
-		if i < len(h)-4 {
+	for j, s := range stage {
+		if j < len(stage)-4 {
 			best = math.Min(best, s.Decrement)
 		} else {
 			recent = math.Min(recent, s.Decrement)

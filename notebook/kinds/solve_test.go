@@ -111,3 +111,16 @@ func fieldOf(err error) string {
 	}
 	return ""
 }
+
+// The primal-dual solver (p < 2) reports its causes too: one Newton step
+// allowed is named as such, with the input to change.
+func TestSolveFailurePrimalDual(t *testing.T) {
+	ev := evalCells(t,
+		kc("p", "problem", map[string]any{"domain": "L-shape", "p": 1.1, "f": "0", "u_D": "x*x - y*y + x*y"}),
+		kc("m", "mesh", map[string]any{"problem": "p", "cells": 16}),
+		kc("s", "solve", map[string]any{"mesh": "m", "max_newton": 1}))
+	o := ev.Cell("s")
+	if o.Err == nil || o.Err.Field != "max_newton" || !strings.Contains(o.Err.Msg, "allow more Newton steps") {
+		t.Errorf("primal-dual out of steps: %+v", o.Err)
+	}
+}
