@@ -138,6 +138,72 @@ type Engine struct {
 	// not depend on it: each member is computed alone from the same inputs
 	// and the results are put together in member order.
 	Workers int
+	// Members, when set, decides which members this engine computes and
+	// supplies the others (a share of a study split over machines, or the
+	// merge of the shares); see MemberStore.
+	Members MemberStore
+}
+
+// MemberKey names one member: row Row of the sweep in cell Cell, whose
+// inputs (and those of all it depends on) have hash Hash; Index is the
+// cell's position in the notebook.
+type MemberKey struct {
+	Cell  string `json:"cell"`
+	Hash  string `json:"hash"`
+	Row   int    `json:"row"`
+	Index int    `json:"-"`
+}
+
+// Member is what a sweep keeps of one member: the swept value, the scalars
+// of its chain of cells in order ("cell.scalar"), and the first error.
+type Member struct {
+	MemberKey
+	Value   float64        `json:"value"`
+	Scalars []MemberScalar `json:"scalars"`
+	Error   string         `json:"error,omitempty"`
+}
+
+// MemberScalar is one scalar of a member's chain.
+type MemberScalar struct {
+	Name  string  `json:"name"`
+	Unit  string  `json:"unit,omitempty"`
+	Value float64 `json:"value"`
+}
+
+// MarshalJSON writes a non-finite value as "NaN", "Inf" or "-Inf".
+func (m MemberScalar) MarshalJSON() ([]byte, error) {
+	type plain MemberScalar
+	return json.Marshal(struct {
+		plain
+		Value num `json:"value"`
+	}{plain(m), num(m.Value)})
+}
+
+// UnmarshalJSON reads what MarshalJSON writes.
+func (m *MemberScalar) UnmarshalJSON(b []byte) error {
+	type plain MemberScalar
+	var w struct {
+		plain
+		Value num `json:"value"`
+	}
+	if err := json.Unmarshal(b, &w); err != nil {
+		return err
+	}
+	*m = MemberScalar(w.plain)
+	m.Value = float64(w.Value)
+	return nil
+}
+
+// MemberStore splits the members of a study between engines (docs/
+// architecture.md, "Studies split over machines"). For every member a
+// sweep asks Lookup first (a member computed elsewhere), then Mine (this
+// engine's share) and hands what it computes to Done; a member neither
+// supplied nor its own is left out of the table (a NaN row whose error
+// says so).
+type MemberStore interface {
+	Lookup(k MemberKey) (*Member, bool)
+	Mine(k MemberKey) bool
+	Done(m *Member)
 }
 
 func (e *Engine) workers() int {
@@ -284,7 +350,7 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 		out.compareSaved(c.Saved)
 		return
 	}
-	cx := &Context{ctx: ctx, cell: c.ID, deps: deps, progress: report, engine: e, nb: nb, index: i}
+	cx := &Context{ctx: ctx, cell: c.ID, deps: deps, progress: report, engine: e, nb: nb, index: i, hash: out.Hash}
 	res, err := safeEvaluate(k, cx, vals)
 	switch {
 	case ctx.Err() != nil:
@@ -564,6 +630,13 @@ type Sweep struct {
 	// Cells whose scalar results become columns; default: Cell and every
 	// cell downstream of it.
 	Cells []string
+	// owner is the sweeping cell, when a cell runs the sweep (members).
+	owner *memberOwner
+}
+
+type memberOwner struct {
+	cell, hash string
+	index      int
 }
 
 // SweepResult holds the sweep table (one row per value; first column the
@@ -609,6 +682,28 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 	// its own, so the order in which they finish changes nothing.
 	runs := make([]*Evaluation, len(s.Values))
 	fails := make([]error, len(s.Values))
+	members := make([]*Member, len(s.Values))
+	key := func(row int) MemberKey {
+		k := MemberKey{Row: row}
+		if s.owner != nil {
+			k.Cell, k.Hash, k.Index = s.owner.cell, s.owner.hash, s.owner.index
+		}
+		return k
+	}
+	todo := make([]bool, len(s.Values))
+	for row := range s.Values {
+		if e.Members == nil || s.owner == nil {
+			todo[row] = true
+			continue
+		}
+		if m, ok := e.Members.Lookup(key(row)); ok {
+			members[row] = m
+		} else if e.Members.Mine(key(row)) {
+			todo[row] = true
+		} else {
+			members[row] = &Member{MemberKey: key(row), Value: s.Values[row], Error: "computed by another share of the study"}
+		}
+	}
 	var mu sync.Mutex // serialises the progress callbacks
 	rows := make(chan int)
 	var wg sync.WaitGroup
@@ -638,7 +733,9 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 		if ctx.Err() != nil {
 			break
 		}
-		rows <- row
+		if todo[row] {
+			rows <- row
+		}
 	}
 	close(rows)
 	wg.Wait()
@@ -647,37 +744,31 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 		if fails[row] != nil {
 			return nil, fmt.Errorf("sweep: %v", fails[row])
 		}
-		ev := runs[row]
-		if ev == nil {
-			// Cancelled: the members finished before the first missing
-			// one are kept.
-			break
+		m := members[row]
+		if m == nil {
+			ev := runs[row]
+			if ev == nil {
+				// Cancelled: the members finished before the first
+				// missing one are kept.
+				break
+			}
+			res.Runs = append(res.Runs, ev)
+			m = memberOf(key(row), v, ev, chain)
+			if e.Members != nil && s.owner != nil {
+				e.Members.Done(m)
+			}
 		}
-		res.Runs = append(res.Runs, ev)
-		msg := ""
 		vals := map[int]float64{}
-		for _, id := range chain {
-			o := ev.Cell(id)
-			if o == nil {
-				continue
+		for _, sc := range m.Scalars {
+			j, ok := col[sc.Name]
+			if !ok {
+				j = len(res.Table.Columns)
+				col[sc.Name] = j
+				res.Table.Columns = append(res.Table.Columns, Column{Name: sc.Name, Unit: sc.Unit})
 			}
-			if o.Status == StatusError && msg == "" {
-				msg = o.Err.Error()
-			}
-			if o.Status != StatusOK {
-				continue
-			}
-			for _, sc := range o.Results.Scalars {
-				name := id + "." + sc.Name
-				j, ok := col[name]
-				if !ok {
-					j = len(res.Table.Columns)
-					col[name] = j
-					res.Table.Columns = append(res.Table.Columns, Column{Name: name, Unit: sc.Unit})
-				}
-				vals[j] = sc.Value
-			}
+			vals[j] = sc.Value
 		}
+		msg := m.Error
 		res.Errors = append(res.Errors, msg)
 		r := []float64{v}
 		for j := 1; j < len(res.Table.Columns); j++ {
@@ -700,4 +791,25 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 		return res, err
 	}
 	return res, nil
+}
+
+// memberOf keeps of one member's evaluation what its sweep needs.
+func memberOf(k MemberKey, v float64, ev *Evaluation, chain []string) *Member {
+	m := &Member{MemberKey: k, Value: v, Scalars: []MemberScalar{}}
+	for _, id := range chain {
+		o := ev.Cell(id)
+		if o == nil {
+			continue
+		}
+		if o.Status == StatusError && m.Error == "" {
+			m.Error = o.Err.Error()
+		}
+		if o.Status != StatusOK {
+			continue
+		}
+		for _, sc := range o.Results.Scalars {
+			m.Scalars = append(m.Scalars, MemberScalar{Name: id + "." + sc.Name, Unit: sc.Unit, Value: sc.Value})
+		}
+	}
+	return m
 }

@@ -352,6 +352,7 @@ type Context struct {
 	engine   *Engine
 	nb       *Notebook
 	index    int
+	hash     string
 }
 
 // Context returns the context.Context of the evaluation.
@@ -397,5 +398,6 @@ func (c *Context) Object(id, name string) any {
 // without touching the document; the sweep kind calls it. Only cells before
 // the calling cell take part.
 func (c *Context) Sweep(s Sweep) (*SweepResult, error) {
+	s.owner = &memberOwner{cell: c.cell, hash: c.hash, index: c.index}
 	return c.engine.sweep(c.ctx, c.nb, s, nil, c.index)
 }

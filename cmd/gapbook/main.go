@@ -9,6 +9,7 @@ import (
 	"net"
 	"net/http"
 	"os"
+	"os/exec"
 	"os/signal"
 	"path/filepath"
 	"strconv"
@@ -32,6 +33,13 @@ usage:
   gapbook serve [--addr 127.0.0.1:PORT] [--public] [FILE]
                                                   serve the browser notebook; --public allows
                                                   a non-loopback address (no authentication)
+  gapbook run FILE --members K/N --out part-K.json
+                                                  compute share K of N of the study's members
+  gapbook merge FILE part-*.json --out merged.gapbook
+                                                  fold the shares into the study, with results
+  gapbook slurm FILE --shares N [--dir D] [--partition P] [--time T] [--submit]
+                                                  write (and submit) a Slurm job array of the
+                                                  shares and the merge job after it
   gapbook export FILE --standalone out.html       write a single-file page
 `
 
@@ -41,6 +49,10 @@ func main() {
 		os.Exit(2)
 	}
 	switch os.Args[1] {
+	case "merge":
+		os.Exit(merge(os.Args[2:]))
+	case "slurm":
+		os.Exit(slurm(os.Args[2:]))
 	case "-h", "--help", "help":
 		fmt.Print(usage)
 	case "run":
@@ -59,7 +71,7 @@ func main() {
 // returns the exit status: 0 all cells ok, 1 a cell failed, 2 bad usage or
 // unreadable file.
 func run(args []string) int {
-	var file string
+	var file, members, out string
 	o := batch.Options{Stdout: os.Stdout, Stderr: os.Stderr}
 	for i := 0; i < len(args); i++ {
 		switch a := args[i]; a {
@@ -67,6 +79,17 @@ func run(args []string) int {
 			o.JSON = true
 		case "--fields", "-fields":
 			o.JSON, o.Fields = true, true
+		case "--members", "-members", "--out", "-out":
+			if i+1 >= len(args) {
+				fmt.Fprintf(os.Stderr, "gapbook run: %s needs a value\n", a)
+				return 2
+			}
+			i++
+			if strings.TrimLeft(a, "-") == "members" {
+				members = args[i]
+			} else {
+				out = args[i]
+			}
 		case "--workers", "-workers":
 			if i+1 >= len(args) {
 				fmt.Fprintln(os.Stderr, "gapbook run: --workers needs a number of workers, for example 2")
@@ -107,6 +130,27 @@ func run(args []string) int {
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
 	defer stop()
+	if members != "" || out != "" {
+		k, n, err := batch.ParseShare(members)
+		switch {
+		case err != nil:
+			fmt.Fprintf(os.Stderr, "gapbook run: --members: %v\n", err)
+			return 2
+		case out == "":
+			fmt.Fprintln(os.Stderr, "gapbook run: --members needs --out part.json, the file its share is written to")
+			return 2
+		case o.JSON || o.Report != "" || o.Export != "":
+			fmt.Fprintln(os.Stderr, "gapbook run: a share (--members) writes only its part; merge the parts with gapbook merge, then report")
+			return 2
+		}
+		part, err := batch.RunShare(ctx, file, k, n, o.Workers, out)
+		if err != nil {
+			fmt.Fprintf(os.Stderr, "gapbook run: %v\n", err)
+			return 2
+		}
+		fmt.Fprintf(os.Stderr, "share %d/%d: %d members written to %s\n", k, n, len(part.Members), out)
+		return 0
+	}
 	_, ok, err := batch.Run(ctx, file, o)
 	if err != nil {
 		fmt.Fprintf(os.Stderr, "gapbook run: %v\n", err)
@@ -115,6 +159,171 @@ func run(args []string) int {
 	if !ok {
 		return 1
 	}
+	return 0
+}
+
+// merge parses `gapbook merge FILE PART... --out merged.gapbook` and folds
+// the shares of a study into it.
+func merge(args []string) int {
+	var file, out string
+	var parts []string
+	for i := 0; i < len(args); i++ {
+		switch a := args[i]; {
+		case a == "--out" || a == "-out":
+			if i+1 >= len(args) {
+				fmt.Fprintln(os.Stderr, "gapbook merge: --out needs the file to write the merged study to")
+				return 2
+			}
+			i++
+			out = args[i]
+		case strings.HasPrefix(a, "-"):
+			fmt.Fprintf(os.Stderr, "gapbook merge: unexpected argument %q\n%s", a, usage)
+			return 2
+		case file == "":
+			file = a
+		default:
+			parts = append(parts, a)
+		}
+	}
+	if file == "" || len(parts) == 0 || out == "" {
+		fmt.Fprintf(os.Stderr, "gapbook merge: want the study, its parts and --out\n%s", usage)
+		return 2
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	defer stop()
+	doc, ev, err := batch.Merge(ctx, file, parts)
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook merge: %v\n", err)
+		return 2
+	}
+	if err := batch.WriteFileAtomic(out, doc); err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook merge: %v\n", err)
+		return 2
+	}
+	failed := 0
+	for _, o := range ev.Cells {
+		if o.Status != "ok" {
+			failed++
+		}
+	}
+	fmt.Fprintf(os.Stderr, "gapbook merge: %d parts merged into %s (%d cells, %d not ok)\n", len(parts), out, len(ev.Cells), failed)
+	if failed > 0 {
+		return 1
+	}
+	return 0
+}
+
+// slurm parses `gapbook slurm FILE --shares N [--dir D] [--partition P]
+// [--time T] [--workers W] [--submit]`, writes the job-array script and the
+// merge script into D and, with --submit, hands them to sbatch, the merge
+// to run after every share succeeded.
+func slurm(args []string) int {
+	o := batch.SlurmOptions{}
+	var file, dir string
+	submit := false
+	for i := 0; i < len(args); i++ {
+		a := args[i]
+		val := func() (string, bool) {
+			if i+1 >= len(args) {
+				fmt.Fprintf(os.Stderr, "gapbook slurm: %s needs a value\n", a)
+				return "", false
+			}
+			i++
+			return args[i], true
+		}
+		var ok bool
+		switch a {
+		case "--submit":
+			submit = true
+			continue
+		case "--shares", "--workers":
+			var v string
+			if v, ok = val(); !ok {
+				return 2
+			}
+			n, err := strconv.Atoi(v)
+			if err != nil || n < 1 {
+				fmt.Fprintf(os.Stderr, "gapbook slurm: %s %q: want a whole number ≥ 1\n", a, v)
+				return 2
+			}
+			if a == "--shares" {
+				o.Shares = n
+			} else {
+				o.Workers = n
+			}
+		case "--dir":
+			if dir, ok = val(); !ok {
+				return 2
+			}
+		case "--partition":
+			if o.Partition, ok = val(); !ok {
+				return 2
+			}
+		case "--time":
+			if o.Time, ok = val(); !ok {
+				return 2
+			}
+		default:
+			if strings.HasPrefix(a, "-") || file != "" {
+				fmt.Fprintf(os.Stderr, "gapbook slurm: unexpected argument %q\n%s", a, usage)
+				return 2
+			}
+			file = a
+		}
+	}
+	if file == "" || o.Shares == 0 {
+		fmt.Fprintf(os.Stderr, "gapbook slurm: want the study and --shares N\n%s", usage)
+		return 2
+	}
+	if _, err := os.ReadFile(file); err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook slurm: %v\n", err)
+		return 2
+	}
+	if dir == "" {
+		dir = strings.TrimSuffix(file, filepath.Ext(file)) + "-slurm"
+	}
+	var err error
+	if o.Study, err = filepath.Abs(file); err == nil {
+		if o.Dir, err = filepath.Abs(dir); err == nil {
+			o.Gapbook, err = os.Executable()
+		}
+	}
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook slurm: %v\n", err)
+		return 2
+	}
+	array, mergeScript, err := batch.SlurmScripts(o)
+	if err == nil {
+		err = os.MkdirAll(filepath.Join(o.Dir, "logs"), 0o755)
+	}
+	shares, merges := filepath.Join(o.Dir, "shares.sbatch"), filepath.Join(o.Dir, "merge.sbatch")
+	if err == nil {
+		err = batch.WriteFileAtomic(shares, []byte(array))
+	}
+	if err == nil {
+		err = batch.WriteFileAtomic(merges, []byte(mergeScript))
+	}
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook slurm: %v\n", err)
+		return 2
+	}
+	fmt.Fprintf(os.Stderr, "gapbook slurm: wrote %s (%d array tasks) and %s\n", shares, o.Shares, merges)
+	if !submit {
+		fmt.Fprintf(os.Stderr, "submit with: id=$(sbatch --parsable %s) && sbatch --dependency=afterok:$id %s\n", shares, merges)
+		return 0
+	}
+	id, err := exec.Command("sbatch", "--parsable", shares).Output()
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook slurm: sbatch %s: %v\n", shares, err)
+		return 2
+	}
+	job := strings.TrimSpace(strings.Split(string(id), ";")[0])
+	mid, err := exec.Command("sbatch", "--parsable", "--dependency=afterok:"+job, merges).Output()
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "gapbook slurm: sbatch %s: %v\n", merges, err)
+		return 2
+	}
+	fmt.Printf("shares job %s, merge job %s; the merged study will be %s\n", job, strings.TrimSpace(string(mid)), filepath.Join(o.Dir, "merged.gapbook"))
 	return 0
 }
 
