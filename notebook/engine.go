@@ -413,7 +413,7 @@ func safeEvaluate(k Kind, c *Context, v Values) (r *Results, err error) {
 
 type depHash struct{ id, hash string }
 
-// cellHash is the one hash of a cell's inputs (docs/format.md, "Hashes"):
+// cellHash is the one hash of a cell's inputs (docs/format.md, "Hashes and digests"):
 // SHA-256 of the kind, the validated inputs in canonical form and the
 // hashes of the cells it refers to, in the order of its inputs.
 func cellHash(kind string, vals Values, deps []depHash) string {
