@@ -553,8 +553,16 @@ func TestSaveReloadShareAutosave(t *testing.T) {
 	eval[bool](tb, `(gapbook.api.focusCell('intro'), true)`)
 	eval[bool](tb, key("Delete"))
 	tb.wait(`!document.getElementById('cell-intro')`)
+	// The engine is told (its copy drops the cell), then the cell comes
+	// back: the engine must get it again.
+	if n := eval[int](tb, `gapbook.api.ask('show').then(r => r.cells.length)`); n != 3 {
+		t.Errorf("the engine has %d cells after the delete, want 3", n)
+	}
 	eval[bool](tb, key("u"))
 	tb.wait(`!!document.getElementById('cell-intro') && document.querySelectorAll('.cell')[0].dataset.cell === 'intro'`)
+	if got := eval[string](tb, `gapbook.api.ask('show').then(r => r.cells.map(c => c.id).join(','), e => 'error: ' + e.message)`); !strings.HasPrefix(got, "intro,") {
+		t.Errorf("the engine's cells after undo: %s", got)
+	}
 
 	// The saved file is a notebook that loads losslessly, results included.
 	saved := eval[string](tb, `gapbook.api.docText()`)

@@ -133,6 +133,10 @@ function changes() {
   if (!sent.whole) { remember(doc); return { doc: docText() }; }
   const edit = {};
   const cells = [];
+  // The engine drops the cells left out of an order: forget them, so that
+  // one that comes back (undo) is sent again.
+  const ids = new Set(doc.cells.map((c) => c.id));
+  for (const id of sent.cells.keys()) if (!ids.has(id)) sent.cells.delete(id);
   for (const c of doc.cells) {
     const s = JSON.stringify(c);
     if (sent.cells.get(c.id) !== s) { cells.push(c); sent.cells.set(c.id, s); }
