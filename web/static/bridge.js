@@ -111,17 +111,21 @@ function forget() {
   sent.cells.clear();
 }
 
+// cellKey is what decides whether a cell changed: everything but its
+// results, which only the engine writes (an edit made while a run computed
+// must reach the engine although the run's results were merged into it).
+function cellKey(c) {
+  const { results, ...rest } = c;
+  return JSON.stringify(rest);
+}
+
 function remember(doc) {
   sent.whole = true;
-  sent.cells = new Map((doc.cells || []).map((c) => [c.id, JSON.stringify(c)]));
+  sent.cells = new Map((doc.cells || []).map((c) => [c.id, cellKey(c)]));
   sent.order = JSON.stringify((doc.cells || []).map((c) => c.id));
   sent.title = doc.title || '';
   sent.history = JSON.stringify(doc.history || []);
 }
-
-// synced records that the engine holds cell c as it is now (its results
-// came from the engine).
-export function synced(c) { if (sent.whole) sent.cells.set(c.id, JSON.stringify(c)); }
 
 // syncedHistory records that the engine holds the page's history.
 export function syncedHistory() { if (sent.whole) sent.history = JSON.stringify(state.doc.history || []); }
@@ -138,7 +142,7 @@ function changes() {
   const ids = new Set(doc.cells.map((c) => c.id));
   for (const id of sent.cells.keys()) if (!ids.has(id)) sent.cells.delete(id);
   for (const c of doc.cells) {
-    const s = JSON.stringify(c);
+    const s = cellKey(c);
     if (sent.cells.get(c.id) !== s) { cells.push(c); sent.cells.set(c.id, s); }
   }
   if (cells.length) edit.cells = cells;

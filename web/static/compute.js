@@ -2,7 +2,7 @@
 // merging the results the engine saved into the page's notebook.
 
 import { $, cellOf, domID, notice, state, STATUS_WORDS } from './state.js';
-import { ask, failPending, restartWorker, synced, syncedHistory } from './bridge.js';
+import { ask, failPending, restartWorker, syncedHistory } from './bridge.js';
 import { applyView, applyViews, changed, refreshStates } from './cells.js';
 import { renderRuns } from './runs.js';
 
@@ -70,7 +70,7 @@ export function showProgress(m) {
 export function mergeResults(done) {
   for (const [id, results] of Object.entries(done.results || {})) {
     const mine = cellOf(id);
-    if (mine) { mine.results = results; synced(mine); }
+    if (mine) mine.results = results;
   }
   if (done.history) { state.doc.history = done.history; syncedHistory(); }
 }
