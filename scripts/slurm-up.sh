@@ -4,6 +4,8 @@
 # root as the Slurm user). Prints the SLURM_CONF to export. Needs Debian's
 # slurm-wlm and munge.
 set -euo pipefail
+# The daemons live in sbin, which a non-login PATH may lack.
+export PATH="$PATH:/usr/sbin:/sbin"
 dir=${1:-/tmp/gapbook-slurm}
 mkdir -p "$dir/state" "$dir/spool" /run/munge /var/log/munge /var/lib/munge /etc/munge
 host=$(hostname -s)
