@@ -177,15 +177,13 @@ func (p *Problem) WithDirichlet(d func(x, y float64) float64) *Problem {
 	return q
 }
 
+// at returns the formula f in x, y at time t, with its own scratch space.
 func at(f *expr.Formula, t float64) func(x, y float64) float64 {
-	f = f.Clone()
-	var q [3]float64
-	return func(x, y float64) float64 {
-		q = [3]float64{x, y, t}
-		return f.Eval(q[:])
-	}
+	g := eval3(f)
+	return func(x, y float64) float64 { return g(x, y, t) }
 }
 
+// eval3 returns the formula f in x, y, t, with its own scratch space.
 func eval3(f *expr.Formula) func(x, y, t float64) float64 {
 	f = f.Clone()
 	var q [3]float64
