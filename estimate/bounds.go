@@ -616,13 +616,10 @@ func EnergyRounded(s *fem.P1, G convex.Potential, f func(x, y float64) float64, 
 }
 
 // Minorant returns μ̲ = max(0, J(v) − J(w)) ≤ μ(v) for any admissible w
-// (docs/math.md §4), e.g. the solution on a refined mesh, from the two energies.
-func Minorant(jv, jw float64) float64 { return math.Max(0, jv-jw) }
-
-// MinorantRounded is Minorant lowered by the rounding bounds rv and rw of
-// the two energies (EnergyRounded, Terms.EnergyRound), so that it stays
-// below μ(v) in floating point.
-func MinorantRounded(jv, rv, jw, rw float64) float64 { return math.Max(0, jv-jw-rv-rw) }
+// (docs/math.md §4), e.g. the solution on a refined mesh, from the two
+// energies, lowered by their rounding bounds rv and rw (EnergyRounded,
+// Terms.EnergyRound) so that it stays below μ(v) in floating point.
+func Minorant(jv, rv, jw, rw float64) float64 { return math.Max(0, jv-jw-rv-rw) }
 
 // Interval is a labelled interval [Lo, Hi].
 type Interval struct {

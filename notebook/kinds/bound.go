@@ -264,7 +264,7 @@ func addMinorant(c *notebook.Context, b *Bounds, st boundSettings, res *notebook
 		return notebook.FieldErr("minorant", "solve on the refined mesh: %v", err)
 	}
 	jw, rw := estimate.EnergyRounded(w.Space, p.G, p.SourceAt(0), w.V, r.Degree)
-	mu := estimate.MinorantRounded(r.Energy, r.EnergyRound, jw, rw)
+	mu := estimate.Minorant(r.Energy, r.EnergyRound, jw, rw)
 	lab := r.Label
 	e := estimate.EnergyInterval(r, mu)
 	res.Scalars = append(res.Scalars,

@@ -184,12 +184,7 @@ func output(nb *notebook.Notebook, ev *notebook.Evaluation, fields bool) *Output
 		}
 		if o.Results != nil {
 			for _, s := range o.Results.Scalars {
-				bv := Value{Label: s.Label, Unit: s.Unit}
-				if !math.IsNaN(s.Value) && !math.IsInf(s.Value, 0) {
-					v := s.Value
-					bv.Value = &v
-				}
-				bc.Values[s.Name] = bv
+				bc.Values[s.Name] = Value{Value: finite(s.Value), Label: s.Label, Unit: s.Unit}
 			}
 			for _, iv := range o.Results.Intervals {
 				if bc.Intervals == nil {

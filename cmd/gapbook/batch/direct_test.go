@@ -76,7 +76,7 @@ func TestBoundMatchesDirectCalls(t *testing.T) {
 	}
 	sf, _ := fem.NewP1(fine)
 	jw, rw := estimate.EnergyRounded(sf, G, one, w.U, 8)
-	mu := estimate.MinorantRounded(r.Energy, r.EnergyRound, jw, rw)
+	mu := estimate.Minorant(r.Energy, r.EnergyRound, jw, rw)
 	e := estimate.EnergyInterval(r, mu)
 	q, err := estimate.FlowRate(e, 3, 1)
 	if err != nil {
