@@ -63,6 +63,9 @@ type Outcome struct {
 	// (Differences lists what differs).
 	Reproduced  string
 	Differences []string
+	// Partial is true when the cell left members to another share of the
+	// study (their rows are NaN): such results are neither cached nor saved.
+	Partial bool
 }
 
 // Evaluation is the outcome of evaluating a notebook.
@@ -120,6 +123,11 @@ type Options struct {
 	// Only, when set, evaluates these cells and the cells they need; the
 	// others are reported stale.
 	Only []string
+	// Members, when set, decides which members of multi-member cells this
+	// evaluation computes and supplies the others (a share of a study split
+	// over machines or workers, or the merge of the shares); see
+	// MemberStore. A cell that left members out is not cached.
+	Members MemberStore
 	// before, when > 0, limits the evaluation to cells before this index
 	// (a sweep run from inside a cell must not re-enter that cell).
 	before int
@@ -138,10 +146,6 @@ type Engine struct {
 	// not depend on it: each member is computed alone from the same inputs
 	// and the results are put together in member order.
 	Workers int
-	// Members, when set, decides which members this engine computes and
-	// supplies the others (a share of a study split over machines, or the
-	// merge of the shares); see MemberStore.
-	Members MemberStore
 }
 
 // MemberKey names one member: row Row of the sweep in cell Cell, whose
@@ -205,6 +209,11 @@ type MemberStore interface {
 	Mine(k MemberKey) bool
 	Done(m *Member)
 }
+
+// ShareOf is the share (1-based) of n that computes member k: the members
+// of each multi-member cell are dealt out in turn, starting one share later
+// for each cell, so that every share gets its part of every cell.
+func ShareOf(k MemberKey, n int) int { return (k.Row+k.Index)%n + 1 }
 
 func (e *Engine) workers() int {
 	if e.Workers > 0 {
@@ -350,7 +359,7 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 		out.compareSaved(c.Saved)
 		return
 	}
-	cx := &Context{ctx: ctx, cell: c.ID, deps: deps, progress: report, engine: e, nb: nb, index: i, hash: out.Hash}
+	cx := &Context{ctx: ctx, cell: c.ID, deps: deps, progress: report, engine: e, nb: nb, index: i, hash: out.Hash, members: o.Members}
 	res, err := safeEvaluate(k, cx, vals)
 	switch {
 	case ctx.Err() != nil:
@@ -374,9 +383,11 @@ func (e *Engine) evalCell(ctx context.Context, nb *Notebook, i int, o Options, d
 		fail("", "the "+c.Kind+" kind produced inconsistent results: "+ps[0].String())
 		return
 	}
-	out.Status, out.Results, out.Digest = StatusOK, res, res.Digest()
+	out.Status, out.Results, out.Digest, out.Partial = StatusOK, res, res.Digest(), cx.partial
 	out.compareSaved(c.Saved)
-	e.store(out)
+	if !out.Partial {
+		e.store(out)
+	}
 }
 
 func (o *Outcome) compareSaved(s *Saved) {
@@ -548,6 +559,42 @@ func (nb *Notebook) Closure(ids []string) map[string]bool {
 	return need
 }
 
+// MemberCell is a multi-member cell that an evaluation would compute: its
+// inputs' hash and how many members it has.
+type MemberCell struct {
+	Cell    string `json:"cell"`
+	Hash    string `json:"hash"`
+	Members int    `json:"members"`
+}
+
+// Pending lists, without evaluating, the multi-member cells (kinds that
+// are Multi) among only and the cells they need (all cells when only is
+// empty) whose results the engine has not cached: the work that can be
+// spread over several engines.
+func (e *Engine) Pending(nb *Notebook, only []string) []MemberCell {
+	var need map[string]bool
+	if len(only) > 0 {
+		need = nb.Closure(only)
+	}
+	out := []MemberCell{}
+	for i, o := range nb.States() {
+		c := nb.Cells[i]
+		k, ok := Lookup(c.Kind)
+		mk, multi := k.(Multi)
+		if !ok || !multi || o.Hash == "" || need != nil && !need[c.ID] || e.cached(o.Hash) != nil {
+			continue
+		}
+		vals, errs := ParseInputs(k, c.Inputs)
+		if len(errs) > 0 {
+			continue
+		}
+		if n := mk.Members(vals); n > 1 {
+			out = append(out, MemberCell{Cell: c.ID, Hash: o.Hash, Members: n})
+		}
+	}
+	return out
+}
+
 // Downstream returns id and every cell that depends on it, directly or
 // not, in document order.
 func (nb *Notebook) Downstream(id string) []string {
@@ -647,16 +694,19 @@ type SweepResult struct {
 	Runs  []*Evaluation
 	// Errors lists, per row, the first failing cell's error ("" if none).
 	Errors []string
+	// Missing counts the members left to another share (neither supplied
+	// nor this evaluation's own): their rows are NaN.
+	Missing int
 }
 
 // Sweep runs s through the engine, sharing its cache, without changing nb.
 // progress, when set, is called with the row index and its evaluation
 // progress.
 func (e *Engine) Sweep(ctx context.Context, nb *Notebook, s Sweep, progress func(row int, p Progress)) (*SweepResult, error) {
-	return e.sweep(ctx, nb, s, progress, 0)
+	return e.sweep(ctx, nb, s, progress, 0, nil)
 }
 
-func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func(int, Progress), before int) (*SweepResult, error) {
+func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func(int, Progress), before int, store MemberStore) (*SweepResult, error) {
 	if len(s.Values) == 0 {
 		return nil, fmt.Errorf("sweep: no values to sweep %s.%s over", s.Cell, s.Input)
 	}
@@ -692,16 +742,17 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 	}
 	todo := make([]bool, len(s.Values))
 	for row := range s.Values {
-		if e.Members == nil || s.owner == nil {
+		if store == nil || s.owner == nil {
 			todo[row] = true
 			continue
 		}
-		if m, ok := e.Members.Lookup(key(row)); ok {
+		if m, ok := store.Lookup(key(row)); ok {
 			members[row] = m
-		} else if e.Members.Mine(key(row)) {
+		} else if store.Mine(key(row)) {
 			todo[row] = true
 		} else {
 			members[row] = &Member{MemberKey: key(row), Value: s.Values[row], Error: "computed by another share of the study"}
+			res.Missing++
 		}
 	}
 	var mu sync.Mutex // serialises the progress callbacks
@@ -754,8 +805,8 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 			}
 			res.Runs = append(res.Runs, ev)
 			m = memberOf(key(row), v, ev, chain)
-			if e.Members != nil && s.owner != nil {
-				e.Members.Done(m)
+			if store != nil && s.owner != nil {
+				store.Done(m)
 			}
 		}
 		vals := map[int]float64{}

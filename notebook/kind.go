@@ -342,6 +342,13 @@ type refUse struct {
 	kinds     []string
 }
 
+// Multi is a kind whose cells compute several independent members (the
+// rows of a sweep), which a MemberStore can spread over engines. Members
+// says how many a cell with these inputs has.
+type Multi interface {
+	Members(Values) int
+}
+
 // Context is what a kind sees while it evaluates: cancellation, progress,
 // and the results of the cells it depends on.
 type Context struct {
@@ -353,6 +360,10 @@ type Context struct {
 	nb       *Notebook
 	index    int
 	hash     string
+	// members is the evaluation's MemberStore; partial is set when a
+	// multi-member cell left members to another share.
+	members MemberStore
+	partial bool
 }
 
 // Context returns the context.Context of the evaluation.
@@ -399,5 +410,9 @@ func (c *Context) Object(id, name string) any {
 // the calling cell take part.
 func (c *Context) Sweep(s Sweep) (*SweepResult, error) {
 	s.owner = &memberOwner{cell: c.cell, hash: c.hash, index: c.index}
-	return c.engine.sweep(c.ctx, c.nb, s, nil, c.index)
+	r, err := c.engine.sweep(c.ctx, c.nb, s, nil, c.index, c.members)
+	if r != nil && r.Missing > 0 {
+		c.partial = true
+	}
+	return r, err
 }

@@ -34,6 +34,13 @@ type request struct {
 	Table    string             `json:"table,omitempty"`
 	X        string             `json:"x,omitempty"`
 	Y        string             `json:"y,omitempty"`
+	// Share, for a run, is [K, N]: compute only the K-th of N shares of
+	// the members of multi-member cells and save nothing (a helper
+	// worker's part of a run).
+	Share []int `json:"share,omitempty"`
+	// Members are members the page has already (from helpers, or kept
+	// when a run was stopped); a run takes them instead of computing them.
+	Members []notebook.Member `json:"members,omitempty"`
 }
 
 // edit is a cell-level change of the engine's copy of the notebook.
@@ -389,6 +396,8 @@ func (s *server) answer(q *request) (map[string]any, error) {
 	case "show":
 		states := nb.States()
 		return s.views(nb, states, problems), nil
+	case "plan":
+		return map[string]any{"pending": s.engine.Pending(nb, q.Only)}, nil
 	case "run":
 		return s.run(q, nb, problems)
 	case "report":
@@ -433,7 +442,7 @@ func (s *server) answer(q *request) (map[string]any, error) {
 		}
 		return out, nil
 	}
-	return nil, fmt.Errorf("unknown operation %q; known: show, run, preview, compare, report, csv, kinds", q.Op)
+	return nil, fmt.Errorf("unknown operation %q; known: show, plan, run, preview, compare, report, csv, kinds", q.Op)
 }
 
 func (s *server) views(nb *notebook.Notebook, outs []*notebook.Outcome, problems []string) map[string]any {
@@ -450,8 +459,14 @@ func (s *server) views(nb *notebook.Notebook, outs []*notebook.Outcome, problems
 
 func (s *server) run(q *request, nb *notebook.Notebook, problems []string) (map[string]any, error) {
 	last := time.Time{}
+	store, err := newPageStore(q.Members, q.Share, func(m *notebook.Member) {
+		s.post(map[string]any{"id": q.ID, "type": "member", "member": m})
+	})
+	if err != nil {
+		return nil, err
+	}
 	ev, err := s.engine.Evaluate(context.Background(), nb, notebook.Options{
-		Only: q.Only, Override: q.Override,
+		Only: q.Only, Override: q.Override, Members: store,
 		Progress: func(p notebook.Progress) {
 			if p.Done {
 				c, _ := nb.Cell(p.ID)
@@ -468,11 +483,15 @@ func (s *server) run(q *request, nb *notebook.Notebook, problems []string) (map[
 	if err != nil {
 		return nil, err
 	}
+	if q.Share != nil {
+		// A helper's share: the page wanted only the members.
+		return map[string]any{"computed": store.computed(), "canceled": ev.Canceled}, nil
+	}
 	if q.Record != "" {
 		nb.Record(ev, strings.TrimSpace(q.Record), s.now())
 	} else if q.Override == nil {
 		for _, o := range ev.Cells {
-			if o.Status == notebook.StatusOK {
+			if o.Status == notebook.StatusOK && !o.Partial {
 				c, _ := nb.Cell(o.ID)
 				c.Saved = &notebook.Saved{Hash: o.Hash, Digest: o.Digest, Results: o.Results}
 			}
@@ -519,5 +538,6 @@ func (s *server) run(q *request, nb *notebook.Notebook, problems []string) (map[
 		out["history"] = saved.History
 	}
 	out["canceled"] = ev.Canceled
+	out["computed"] = store.computed()
 	return out, nil
 }

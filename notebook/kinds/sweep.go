@@ -32,6 +32,9 @@ func (sweepKind) Inputs() []notebook.Input {
 	}
 }
 
+// Members is the number of values swept: each is a member of its own.
+func (sweepKind) Members(in notebook.Values) int { return len(in.Numbers("values")) }
+
 func (sweepKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Results, error) {
 	from, through, input := in.Text("cell"), in.Text("through"), in.Text("input")
 	vals := in.Numbers("values")

@@ -177,3 +177,56 @@ func TestSweepWorkersIdentical(t *testing.T) {
 		}
 	}
 }
+
+// oddRows is a MemberStore that computes the odd rows and leaves the
+// others to another share.
+type oddRows struct{ done []notebook.Member }
+
+func (*oddRows) Lookup(notebook.MemberKey) (*notebook.Member, bool) { return nil, false }
+func (*oddRows) Mine(k notebook.MemberKey) bool                     { return k.Row%2 == 1 }
+func (s *oddRows) Done(m *notebook.Member)                          { s.done = append(s.done, *m) }
+
+// A sweep that left members to another share is partial: its outcome says
+// so and the engine does not cache it, so a later evaluation of the same
+// cell on the same engine computes every member.
+func TestPartialSweepNotCached(t *testing.T) {
+	doc := `{"gapbook": 2, "cells": [` + strings.Join([]string{
+		kc("p", "problem", map[string]any{"domain": "interval", "p": 3}),
+		kc("m", "mesh", map[string]any{"problem": "p", "cells": 4}),
+		kc("s", "solve", map[string]any{"mesh": "m"}),
+		kc("sw", "sweep", map[string]any{"cell": "m", "input": "cells", "values": []float64{2, 3, 4, 5}, "through": "s"}),
+	}, ",") + `]}`
+	nb, err := notebook.Load([]byte(doc))
+	if err != nil {
+		t.Fatal(err)
+	}
+	e := notebook.NewEngine()
+	st := &oddRows{}
+	ev, err := e.Evaluate(context.Background(), nb, notebook.Options{Members: st})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if o := ev.Cell("sw"); o.Status != notebook.StatusOK || !o.Partial {
+		t.Fatalf("share run: status %s, partial %v; want ok and partial", o.Status, o.Partial)
+	}
+	if len(st.done) != 2 || st.done[0].Row != 1 || st.done[1].Row != 3 {
+		t.Fatalf("the share computed %+v, want rows 1 and 3", st.done)
+	}
+	if o := ev.Cell("s"); o.Partial {
+		t.Error("a cell without members is marked partial")
+	}
+	ev, err = e.Evaluate(context.Background(), nb, notebook.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	o := ev.Cell("sw")
+	if o.Cached || o.Partial {
+		t.Fatalf("full run: cached %v, partial %v; want a fresh, whole evaluation", o.Cached, o.Partial)
+	}
+	tb, _ := o.Results.Table("sweep")
+	for i, r := range tb.Rows {
+		if math.IsNaN(r[len(r)-1]) {
+			t.Errorf("row %d is NaN after the full run: %v", i, r)
+		}
+	}
+}

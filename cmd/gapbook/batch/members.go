@@ -37,11 +37,6 @@ func StudyDigest(nb *notebook.Notebook) string {
 	return hex.EncodeToString(h.Sum(nil))
 }
 
-// shareOf is the share (1-based) of n that computes member k: the members
-// of each sweep are dealt out in turn, starting one share later for each
-// cell, so that every share gets its part of every sweep.
-func shareOf(k notebook.MemberKey, n int) int { return (k.Row+k.Index)%n + 1 }
-
 // share is the MemberStore of one share: it computes its members and keeps
 // them.
 type share struct {
@@ -51,7 +46,7 @@ type share struct {
 }
 
 func (s *share) Lookup(notebook.MemberKey) (*notebook.Member, bool) { return nil, false }
-func (s *share) Mine(k notebook.MemberKey) bool                     { return shareOf(k, s.n) == s.k }
+func (s *share) Mine(k notebook.MemberKey) bool                     { return notebook.ShareOf(k, s.n) == s.k }
 func (s *share) Done(m *notebook.Member) {
 	s.mu.Lock()
 	defer s.mu.Unlock()
@@ -75,8 +70,8 @@ func RunShare(ctx context.Context, path string, k, n, workers int, out string) (
 	}
 	st := &share{k: k, n: n}
 	e := notebook.NewEngine()
-	e.Workers, e.Members = workers, st
-	ev, err := e.Evaluate(ctx, nb, notebook.Options{})
+	e.Workers = workers
+	ev, err := e.Evaluate(ctx, nb, notebook.Options{Members: st})
 	if err != nil {
 		return nil, err
 	}
@@ -115,7 +110,7 @@ func (m *merged) Lookup(k notebook.MemberKey) (*notebook.Member, bool) {
 func (m *merged) Mine(k notebook.MemberKey) bool {
 	m.mu.Lock()
 	defer m.mu.Unlock()
-	s := shareOf(k, m.n)
+	s := notebook.ShareOf(k, m.n)
 	m.missing[s] = append(m.missing[s], fmt.Sprintf("cell %s member %d", k.Cell, k.Row))
 	return false
 }
@@ -164,9 +159,7 @@ func Merge(ctx context.Context, path string, parts []string) ([]byte, *notebook.
 	if st.n == 0 {
 		return nil, nil, fmt.Errorf("no parts to merge")
 	}
-	e := notebook.NewEngine()
-	e.Members = st
-	ev, err := e.Evaluate(ctx, nb, notebook.Options{})
+	ev, err := notebook.NewEngine().Evaluate(ctx, nb, notebook.Options{Members: st})
 	if err != nil {
 		return nil, nil, err
 	}
