@@ -37,6 +37,7 @@ test-wasm:
 bench:
 	$(GO) test -run '^$$' -bench . -benchmem $(filter-out ./nonlinear/...,$(NUMERIC))
 	$(GO) test -run '^$$' -bench 'SweepWorkers|MalformedCorpus' -benchtime 1x ./notebook/kinds/
+	$(GO) test -run '^$$' -bench 'PageSweepWorkers|FirstResults' -benchtime 1x ./web/
 	$(GO) test -run '^$$' -bench SolverSuite -benchtime 1x -timeout 60m ./nonlinear/
 	$(GO) test -run '^$$' -bench EllipticSolve -timeout 60m ./nonlinear/ | tee $(BENCHOUT)/gapbook-bench-native.txt
 	PATH="$$PATH:$(WASMPATH)" GOOS=js GOARCH=wasm $(GO) test -run '^$$' -bench EllipticSolve -timeout 60m ./nonlinear/ | tee $(BENCHOUT)/gapbook-bench-wasm.txt

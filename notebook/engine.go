@@ -777,6 +777,14 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 					ev = nil // a member cut short is not kept
 				}
 				runs[row], fails[row] = ev, err
+				if ev != nil {
+					// The store hears of each member as it finishes, so
+					// that a stop keeps those done.
+					members[row] = memberOf(key(row), s.Values[row], ev, chain)
+					if store != nil && s.owner != nil {
+						store.Done(members[row])
+					}
+				}
 			}
 		}()
 	}
@@ -797,17 +805,12 @@ func (e *Engine) sweep(ctx context.Context, nb *Notebook, s Sweep, progress func
 		}
 		m := members[row]
 		if m == nil {
-			ev := runs[row]
-			if ev == nil {
-				// Cancelled: the members finished before the first
-				// missing one are kept.
-				break
-			}
-			res.Runs = append(res.Runs, ev)
-			m = memberOf(key(row), v, ev, chain)
-			if store != nil && s.owner != nil {
-				store.Done(m)
-			}
+			// Cancelled: the members finished before the first missing
+			// one are kept.
+			break
+		}
+		if runs[row] != nil {
+			res.Runs = append(res.Runs, runs[row])
 		}
 		vals := map[int]float64{}
 		for _, sc := range m.Scalars {

@@ -20,6 +20,7 @@
 //	{"type": "ready", "kinds": [...], "caution": "...", "version": 1}   once, at start-up (id 0)
 //	{"id": 7, "type": "progress", "cell": "solve", "fraction": 0.4, "message": "Newton step 3"}
 //	{"id": 7, "type": "cell", "view": {...}}      a cell finished (run only)
+//	{"id": 7, "type": "member", "member": {...}}  a member of a multi-member cell finished (run only)
 //	{"id": 7, "type": "done", ...}                the answer; ends the request
 //	{"id": 7, "type": "error", "error": "..."}    the request failed; ends it
 //	{"type": "exit"}                              the engine ended (posted by worker.js)
@@ -37,7 +38,15 @@
 // when "record" is set, the "history" with the new run appended; the
 // engine's copy is updated the same way), "preview" (markdown of
 // a note), "compare" (runs side by side: table and overlaid plot),
-// "report" (the printable page) and "csv" (a table of a cell as CSV).
+// "report" (the printable page) and "csv" (a table of a cell as CSV),
+// "plan" (the multi-member cells a run of "only" would compute, not cached:
+// "pending", each with its cell, hash and number of members).
+//
+// A run may carry "members", members the page already has (they are taken
+// instead of computed), and "share": [K, N], which computes only the K-th
+// of N shares of the members of multi-member cells, saves nothing and
+// answers with "computed" alone: a helper worker's part of a run spread
+// over several engines (docs/architecture.md, "Members in the page").
 // Cancelling is the page's job: it terminates the worker and starts a new
 // one from the compiled module.
 package main

@@ -13,6 +13,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 	"sync"
@@ -822,4 +823,107 @@ func BenchmarkFirstResults(b *testing.B) {
 			b.ReportMetric(wasm/nat, "wasm/native")
 		}
 	}
+}
+
+// The members of a sweep are spread over the main engine and a helper
+// worker; the results equal those of the main engine alone, bit for bit.
+func TestSweepMembersOnPool(t *testing.T) {
+	doc := readFile(t, "testdata/members.gapbook")
+	results := map[int]string{}
+	for _, w := range []int{1, 2} {
+		tb := openTab(t, doc)
+		tb.load(fmt.Sprintf("%s?workers=%d", tb.url, w))
+		if st := tb.statuses()["sw"]; st != "ok" {
+			t.Fatalf("%d workers: the sweep is %s", w, st)
+		}
+		n := eval[string](tb, `document.getElementById('notice').textContent`)
+		if spread := strings.Contains(n, "on 2 engines"); spread != (w == 2) {
+			t.Errorf("%d workers: notice %q", w, n)
+		}
+		results[w] = eval[string](tb, `JSON.stringify(gapbook.doc.cells.find(c => c.id === 'sw').results)`)
+		if w == 2 {
+			tb.screenshot("members-pool")
+		}
+	}
+	if results[1] != results[2] || !strings.Contains(results[1], "b.majorant") {
+		t.Errorf("the sweep's results with one engine and with two differ:\n%s\n%s", results[1], results[2])
+	}
+}
+
+// A stop keeps the members finished so far: the next run computes only
+// the others.
+func TestStopKeepsFinishedMembers(t *testing.T) {
+	doc := bytes.Replace(readFile(t, "testdata/members.gapbook"), []byte(`"cells": 8}`), []byte(`"cells": 32}`), 1)
+	tb := openTab(t, doc)
+	tb.do(chromedp.Navigate(tb.url + "?workers=1"))
+	tb.waitFor(`gapbook.running && (gapbook.running.members.get('sw') || 0) >= 2`, 3*time.Minute)
+	tb.do(chromedp.Click(chromedp.ID("stop")))
+	tb.wait(`document.getElementById('stop').disabled`)
+	n := eval[string](tb, `document.getElementById('notice').textContent`)
+	var kept int
+	if m := regexp.MustCompile(`(\d+) finished members? (is|are) kept`).FindStringSubmatch(n); m != nil {
+		kept, _ = strconv.Atoi(m[1])
+	}
+	if kept < 2 || kept >= 8 {
+		t.Fatalf("notice after the stop: %q (kept %d)", n, kept)
+	}
+	computed := eval[float64](tb, `gapbook.api.runCells(null).then(r => r.computed)`)
+	if int(computed) != 8-kept {
+		t.Errorf("after keeping %d members the run computed %v, want %d", kept, computed, 8-kept)
+	}
+	if st := tb.statuses()["sw"]; st != "ok" {
+		t.Errorf("the sweep is %s after the second run", st)
+	}
+}
+
+// BenchmarkPageSweepWorkers times a 32-member sweep (the exponent from 1.5
+// to 4.6 through mesh, solve and bound on the L-shape, as
+// BenchmarkSweepWorkers natively) in the page with one engine and with two
+// (the main one and a helper worker), and reports the speed-up (target
+// ≥ 1.6 on two cores). Each page first computes the study once (start-up,
+// helpers started); the timed run sweeps new values, so no member is
+// cached.
+func BenchmarkPageSweepWorkers(b *testing.B) {
+	list := func(from float64) string {
+		v := make([]string, 32)
+		for i := range v {
+			v[i] = strconv.FormatFloat(from+0.1*float64(i), 'g', -1, 64)
+		}
+		return "[" + strings.Join(v, ", ") + "]"
+	}
+	doc := []byte(`{"gapbook": 2, "title": "32 members", "cells": [
+ {"id": "p", "kind": "problem", "inputs": {"domain": "L-shape", "p": 3}},
+ {"id": "m", "kind": "mesh", "inputs": {"problem": "p", "cells": 16}},
+ {"id": "s", "kind": "solve", "inputs": {"mesh": "m"}},
+ {"id": "b", "kind": "bound", "inputs": {"solution": "s"}},
+ {"id": "sw", "kind": "sweep", "inputs": {"cell": "p", "input": "p", "values": ` + list(1.5) + `, "through": "b"}}]}`)
+	// sweep runs the whole study with the sweep over new values (no member
+	// cached) and returns how long it took in ms.
+	sweep := func(tb *tab, values string) float64 {
+		return eval[float64](tb, `(async () => { gapbook.doc.cells.find(c => c.id === 'sw').inputs.values = `+values+`;
+			const t = performance.now(); const r = await gapbook.api.runCells(null); if (!r || r.computed === undefined) throw new Error('the run failed');
+			return performance.now() - t })()`)
+	}
+	timed := func(workers int) float64 {
+		tb := openTab(b, doc)
+		tb.load(fmt.Sprintf("%s?workers=%d", tb.url, workers))
+		// A second sweep first: the browser compiles the engine's hot code
+		// with its optimising compiler during the first minute of work,
+		// and that compilation competes with the engines for the cores.
+		sweep(tb, list(1.52))
+		ms := sweep(tb, list(1.55))
+		if st := tb.statuses()["sw"]; st != "ok" {
+			b.Fatalf("%d workers: the sweep is %s", workers, st)
+		}
+		b.Logf("%d workers: %s; shares: %s", workers, eval[string](tb, `document.getElementById('notice').textContent`), eval[string](tb, `JSON.stringify(gapbook.lastSpread || null)`))
+		return ms
+	}
+	var one, two float64
+	for b.Loop() {
+		one, two = timed(1), timed(2)
+	}
+	b.ReportMetric(one/1000, "s-1-worker")
+	b.ReportMetric(two/1000, "s-2-workers")
+	b.ReportMetric(one/two, "speedup")
+	b.Logf("32 members in the page: %.2f s with one engine, %.2f s with two", one/1000, two/1000)
 }

@@ -382,7 +382,7 @@ func readPage(assets fs.FS) (string, error) {
 
 // Modules are the page's script modules in an order in which each one's
 // top-level names are defined before the last one (main.js) runs.
-var Modules = []string{"state.js", "bridge.js", "plots.js", "cells.js", "compute.js", "runs.js", "files.js", "main.js"}
+var Modules = []string{"state.js", "bridge.js", "pool.js", "plots.js", "cells.js", "compute.js", "runs.js", "files.js", "main.js"}
 
 // joinModules makes one module of the page's modules for the standalone
 // page, whose script comes from a blob and cannot import its neighbours:

@@ -104,7 +104,7 @@ export function restartWorker() {
 const sent = { whole: false, cells: new Map(), order: '', title: '', history: '' };
 
 // OPS_WITH_DOC are the operations that read the notebook.
-const OPS_WITH_DOC = new Set(['show', 'run', 'report', 'csv', 'compare']);
+const OPS_WITH_DOC = new Set(['show', 'plan', 'run', 'report', 'csv', 'compare']);
 
 function forget() {
   sent.whole = false;

@@ -17,6 +17,7 @@ export const state = {
   pending: new Map(), // request id -> {resolve, reject, onEvent}
   nextId: 1,
   running: null,      // {id, cells:Set} while a computation runs
+  members: new Map(), // "cell hash row" -> a finished member (pool.js)
   deleted: null,      // {cell, index} for undo
   focus: null,        // id of the cell last focused
   source: 'default',
