@@ -2,7 +2,7 @@
 GO       ?= go
 WASMPATH := $(shell $(GO) env GOROOT)/lib/wasm
 # Numerical packages: tested natively and compiled to WebAssembly under node.
-NUMERIC  := $(foreach d,expr convex problem mesh fem nonlinear estimate,$(if $(wildcard $(d)/*.go),./$(d)/...))
+NUMERIC  := $(foreach d,expr convex problem mesh fem nonlinear estimate meshfile,$(if $(wildcard $(d)/*.go),./$(d)/...))
 # Raw benchmark outputs for the nonlinear table.
 BENCHOUT := $(or $(TMPDIR),/tmp)
 
@@ -48,3 +48,4 @@ fuzz:
 	$(GO) test ./expr -run '^$$' -fuzz FuzzParseEval -fuzztime 60s
 	$(GO) test ./notebook -run '^$$' -fuzz FuzzLoad -fuzztime 60s
 	$(GO) test ./notebook/texmath -run '^$$' -fuzz . -fuzztime 60s
+	$(GO) test ./meshfile -run '^$$' -fuzz FuzzRead -fuzztime 60s
