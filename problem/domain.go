@@ -274,3 +274,16 @@ func onSegment(p, a, b mesh.Point, tol float64) bool {
 	}
 	return math.Hypot(p.X-(a.X+t*dx), p.Y-(a.Y+t*dy)) <= tol
 }
+
+// Area is the measure of the domain: its length in 1-D, else the area
+// enclosed by its sides (the shoelace formula over the boundary).
+func (d *Domain) Area() float64 {
+	if d.Dim() == 1 {
+		return d.X1 - d.X0
+	}
+	s := 0.0
+	for _, e := range d.sides() {
+		s += e.a.X*e.b.Y - e.b.X*e.a.Y
+	}
+	return math.Abs(s) / 2
+}

@@ -42,6 +42,9 @@ func TestDomainGeometry(t *testing.T) {
 		if a := m.Measure(); math.Abs(a-c.area) > 1e-12*c.area {
 			t.Errorf("%s: mesh measure %.15g, exact %.15g", d, a, c.area)
 		}
+		if a := d.Area(); math.Abs(a-c.area) > 1e-12*c.area {
+			t.Errorf("%s: domain area %.15g, exact %.15g", d, a, c.area)
+		}
 		if g := d.Diameter(); math.Abs(g-c.diam) > 1e-12*c.diam {
 			t.Errorf("%s: diameter %.15g, exact %.15g", d, g, c.diam)
 		}

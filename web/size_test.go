@@ -14,8 +14,10 @@ import (
 
 // engineBudget is the most the page's engine may weigh gzipped, in bytes.
 // compress/gzip at its best compression gives about 1% more than gzip -9,
-// so the check errs on the safe side.
-const engineBudget = 2_400_000
+// so the check errs on the safe side. It was 2.4 MB until the engine read
+// mesh files (zlib and gzip, the XML of .vtu files, the readers: about
+// 165 KB gzipped, measured with gzip -9).
+const engineBudget = 2_600_000
 
 // heavyImports cost the engine much for little (measured in gzipped bytes
 // when this budget was set): named in the failure to help find what grew.

@@ -7,6 +7,7 @@ import (
 
 	"gapbook/estimate"
 	"gapbook/mesh"
+	"gapbook/nonlinear"
 	"gapbook/notebook"
 	"gapbook/problem"
 )
@@ -44,7 +45,7 @@ func (boundKind) Doc() string {
 }
 func (boundKind) Inputs() []notebook.Input {
 	return []notebook.Input{
-		{Name: "solution", Type: notebook.Ref, RefKinds: []string{"solve"}, Doc: "id of the solve cell whose solution v is bounded"},
+		{Name: "solution", Type: notebook.Ref, RefKinds: []string{"solve", "import"}, Doc: "id of the solve or import cell whose field v is bounded"},
 		{Name: "flux", Type: notebook.Choice, Default: fluxEquilibrated, Choices: []string{fluxEquilibrated, fluxMinimised, fluxAveraged},
 			Doc: "the flux y* of the bounds: equilibrated (div y* balances the projected source on every cell; sharp, converging bounds), minimised (the averaged flux plus the continuous piecewise linear field that lowers the majorant most; no global solve, slower to evaluate) or averaged (nodal averages of ∂G(∇v); cheap, but its bounds do not converge)"},
 		{Name: "order", Type: notebook.Integer, Default: 1, Low: notebook.AtLeast(0), High: notebook.AtMost(1),
@@ -70,7 +71,7 @@ type Bounds struct {
 func (boundKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Results, error) {
 	sol, ok := c.Object(in.Text("solution"), "solution").(*Solution)
 	if !ok {
-		return nil, notebook.FieldErr("solution", "cell %s is not a solve cell", in.Text("solution"))
+		return nil, notebook.FieldErr("solution", "cell %s is not a solve or import cell", in.Text("solution"))
 	}
 	st := boundSettings{flux: in.Text("flux"), order: in.Int("order"), newton: in.Int("newton"),
 		constant: in.Text("constant"), degree: in.Int("degree")}
@@ -159,6 +160,11 @@ func boundSamples(sol *Solution, degree int) (*estimate.Samples, error) {
 		}
 		// A load rule the bounds cannot use (negative weights): sample f
 		// at the bounds' own rule instead.
+	}
+	if sol.Result == nil {
+		// A field from elsewhere: f at the points a solve here would
+		// have used, so that the same field has the same bounds.
+		degree = nonlinear.DefaultLoadDegree
 	}
 	return estimate.NewSamples(sol.Space, p.SourceAt(0), degree)
 }
