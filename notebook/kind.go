@@ -137,6 +137,10 @@ type Input struct {
 	RefKinds []string
 	// MaxLen limits the length of a Text in bytes (0: MaxStringBytes).
 	MaxLen int
+	// File marks a Text that holds a file, gzip-compressed and base64-
+	// encoded; the page offers to open or drop one, and sets the input
+	// named "file" to its name.
+	File bool
 	// Check, when set, is a further rule; its error message should read
 	// "want ..., got ...".
 	Check func(v any) error

@@ -81,6 +81,7 @@ type inputView struct {
 	Choices  []string   `json:"choices,omitempty"`
 	RefKinds []string   `json:"refKinds,omitempty"`
 	MaxLen   int        `json:"maxLen,omitempty"`
+	File     bool       `json:"file,omitempty"`
 }
 
 var typeNames = map[notebook.Type]string{
@@ -97,7 +98,7 @@ func kindViews() []kindView {
 		_, kv.Body = k.(notebook.Renderer)
 		for _, in := range k.Inputs() {
 			iv := inputView{Name: in.Name, Doc: in.Doc, Type: typeNames[in.Type], Default: in.Default,
-				Optional: in.Optional, Choices: in.Choices, RefKinds: in.RefKinds, MaxLen: in.MaxLen}
+				Optional: in.Optional, Choices: in.Choices, RefKinds: in.RefKinds, MaxLen: in.MaxLen, File: in.File}
 			if in.Low.Set {
 				iv.Low = &boundView{in.Low.Value, in.Low.Strict}
 			}

@@ -5,6 +5,7 @@ package web_test
 import (
 	"bytes"
 	"context"
+	"encoding/base64"
 	"encoding/json"
 	"fmt"
 	"io/fs"
@@ -926,4 +927,39 @@ func BenchmarkPageSweepWorkers(b *testing.B) {
 	b.ReportMetric(two/1000, "s-2-workers")
 	b.ReportMetric(one/two, "speedup")
 	b.Logf("32 members in the page: %.2f s with one engine, %.2f s with two", one/1000, two/1000)
+}
+
+// A mesh file dropped on an import cell is stored in the study and
+// imported; the bound cell then bounds it.
+func TestDropMeshFile(t *testing.T) {
+	raw := readFile(t, "../meshfile/testdata/tri-zlib.vtu")
+	doc := []byte(`{"gapbook": 2, "title": "an imported field", "cells": [
+ {"id": "p", "kind": "problem", "inputs": {"domain": "rectangle", "x_max": 2, "p": 2, "u_D": "x^2 + 3*y + 1", "f": "-2"}},
+ {"id": "i", "kind": "import", "inputs": {"problem": "p", "array": "u"}},
+ {"id": "b", "kind": "bound", "inputs": {"solution": "i"}}]}`)
+	tb := openTab(t, doc)
+	tb.load(tb.url)
+	if st := tb.statuses()["i"]; st != "error" {
+		t.Errorf("an import without a file is %s, want failed", st)
+	}
+	eval[bool](tb, `(() => { const bytes = Uint8Array.from(atob('`+base64.StdEncoding.EncodeToString(raw)+`'), (c) => c.charCodeAt(0));
+		const dt = new DataTransfer(); dt.items.add(new File([bytes], 'tri-zlib.vtu'));
+		document.querySelector('#cell-i .file-drop').dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
+		return true })()`)
+	tb.wait(`!!gapbook.doc.cells.find(c => c.id === 'i').inputs.data`)
+	if name := eval[string](tb, `gapbook.doc.cells.find(c => c.id === 'i').inputs.file`); name != "tri-zlib.vtu" {
+		t.Errorf("the file input is %q", name)
+	}
+	eval[bool](tb, `(gapbook.api.runCells(null), true)`)
+	tb.wait(`document.getElementById('cell-b').dataset.status === 'ok' && !document.body.classList.contains('busy')`)
+	var nodes string
+	for _, v := range tb.values() {
+		if v.Cell == "i" && v.Name == "nodes" {
+			nodes = v.Value
+		}
+	}
+	if nodes != "20" {
+		t.Errorf("the import shows %q nodes, want 20", nodes)
+	}
+	tb.screenshot("import-dropped")
 }

@@ -39,7 +39,7 @@ func (importKind) Inputs() []notebook.Input {
 	return []notebook.Input{
 		{Name: "problem", Type: notebook.Ref, RefKinds: []string{"problem"}, Doc: "id of the problem cell the field is an approximate solution of"},
 		{Name: "file", Type: notebook.Text, Default: "", MaxLen: 256, Doc: "the name of the file, for messages"},
-		{Name: "data", Type: notebook.Text, Doc: "the file itself, gzip-compressed and base64-encoded (the page fills it in when a file is opened or dropped)"},
+		{Name: "data", Type: notebook.Text, File: true, Doc: "the file itself, gzip-compressed and base64-encoded (the page fills it in when a file is opened or dropped)"},
 		{Name: "array", Type: notebook.Text, Default: "", MaxLen: 256, Doc: "the point-data array that holds the field (may be left empty when the file has one)"},
 		{Name: "boundary", Type: notebook.Choice, Default: boundaryCheck, Choices: []string{boundaryCheck, boundaryInterpolate},
 			Doc: "check: refuse a field that differs from u_D at a boundary node by more than rounding (a guaranteed bound needs v = u_D there); interpolate: replace the boundary values by u_D and report the change"},

@@ -170,6 +170,9 @@ export function inputForm(c, kind) {
         field.addEventListener('change', () => set(field.value));
         break;
       }
+      case 'text':
+        if (inp.file) { field = fileField(c, inp, fid, msg, set); break; }
+      // fall through
       default: {
         const shown = raw === undefined ? (inp.default ?? '') : raw;
         const listy = inp.type === 'numbers' || inp.type === 'texts';
@@ -202,6 +205,63 @@ export function inputForm(c, kind) {
     form.append(more);
   }
   return form;
+}
+
+// MAX_FILE is the largest file a cell can hold (as the engine reads it).
+const MAX_FILE = 64 * 1024 * 1024;
+
+// fileField is the input of a file held in the study: a button to open
+// one and a zone to drop one on. The file is stored gzip-compressed and
+// base64-encoded, so the study stays one file that recomputes; the input
+// named "file" gets its name.
+export function fileField(c, inp, fid, msg, set) {
+  const pick = el('input', { type: 'file', id: fid + '-pick', hidden: true });
+  const size = c.inputs[inp.name] ? Math.round(c.inputs[inp.name].length * 3 / 4 / 1024) : 0;
+  const what = el('span', { class: 'file-what', text: c.inputs[inp.name] ? `${c.inputs.file || 'a file'} (${size} KB compressed, in the study)` : 'no file yet' });
+  const bar = el('progress', { class: 'file-bar', max: 1, value: 0, hidden: true });
+  const take = async (f) => {
+    if (!f) return;
+    if (f.size > MAX_FILE) { msg.textContent = `${f.name} has ${(f.size / 1048576).toFixed(1)} MiB; at most 64 MiB can be imported`; return; }
+    msg.textContent = '';
+    bar.hidden = false;
+    try {
+      const data = await packFile(f, (x) => { bar.value = x; });
+      c.inputs.file = f.name;
+      what.textContent = `${f.name} (${Math.round(data.length * 3 / 4 / 1024)} KB compressed, in the study)`;
+      set(data);
+      notice(`Read ${f.name}; recompute the cell to import it.`, 'ok');
+    } catch (e) {
+      msg.textContent = `${f.name} could not be read: ${e.message}`;
+    } finally { bar.hidden = true; }
+  };
+  pick.addEventListener('change', () => { take(pick.files[0]); pick.value = ''; });
+  const field = el('div', { class: 'file-drop', id: fid, tabindex: '0', role: 'button', 'aria-label': `Open or drop the file of ${c.id}` },
+    el('button', { type: 'button', onclick: () => pick.click() }, 'Open a file…'), ' or drop one here · ', what, bar, pick);
+  field.addEventListener('dragover', (e) => { e.preventDefault(); field.classList.add('over'); });
+  field.addEventListener('dragleave', () => field.classList.remove('over'));
+  field.addEventListener('drop', (e) => { e.preventDefault(); field.classList.remove('over'); take(e.dataTransfer.files[0]); });
+  return field;
+}
+
+// packFile reads a file, gzip-compresses it and returns it base64-encoded,
+// reporting the fraction read.
+export async function packFile(f, progress) {
+  const reader = f.stream().getReader();
+  let done = 0;
+  const counted = new ReadableStream({
+    async pull(ctl) {
+      const { value, done: end } = await reader.read();
+      if (end) { ctl.close(); return; }
+      done += value.length;
+      progress(done / Math.max(f.size, 1));
+      ctl.enqueue(value);
+    },
+  });
+  const gz = new Uint8Array(await new Response(counted.pipeThrough(new CompressionStream('gzip'))).arrayBuffer());
+  if (gz.toBase64) return gz.toBase64();
+  let s = '';
+  for (let i = 0; i < gz.length; i += 0x8000) s += String.fromCharCode(...gz.subarray(i, i + 0x8000));
+  return btoa(s);
 }
 
 // parseField turns what was typed into the JSON value of an input. What
