@@ -46,6 +46,8 @@ func (boundKind) Doc() string {
 func (boundKind) Inputs() []notebook.Input {
 	return []notebook.Input{
 		{Name: "solution", Type: notebook.Ref, RefKinds: []string{"solve", "import"}, Doc: "id of the solve or import cell whose field v is bounded"},
+		{Name: "problem", Type: notebook.Ref, RefKinds: []string{"problem"}, Optional: true,
+			Doc: "id of another problem cell to bound v in (model comparison: how far a Newtonian p = 2 answer is from the solution at another p, on the same domain); empty: the problem v was computed for"},
 		{Name: "flux", Type: notebook.Choice, Default: fluxEquilibrated, Choices: []string{fluxEquilibrated, fluxMinimised, fluxAveraged},
 			Doc: "the flux y* of the bounds: equilibrated (div y* balances the projected source on every cell; sharp, converging bounds), minimised (the averaged flux plus the continuous piecewise linear field that lowers the majorant most; no global solve, slower to evaluate) or averaged (nodal averages of ∂G(∇v); cheap, but its bounds do not converge)"},
 		{Name: "order", Type: notebook.Integer, Default: 1, Low: notebook.AtLeast(0), High: notebook.AtMost(1),
@@ -73,6 +75,16 @@ func (boundKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Re
 	if !ok {
 		return nil, notebook.FieldErr("solution", "cell %s is not a solve or import cell", in.Text("solution"))
 	}
+	if id := in.Text("problem"); id != "" {
+		other, ok := c.Object(id, "problem").(*problem.Problem)
+		if !ok {
+			return nil, notebook.FieldErr("problem", "cell %s is not a problem cell", id)
+		}
+		var err error
+		if sol, err = inOtherProblem(sol, other); err != nil {
+			return nil, notebook.FieldErr("problem", "%v", err)
+		}
+	}
 	st := boundSettings{flux: in.Text("flux"), order: in.Int("order"), newton: in.Int("newton"),
 		constant: in.Text("constant"), degree: in.Int("degree")}
 	b, err := computeBound(c, sol, st)
@@ -87,6 +99,23 @@ func (boundKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.Re
 		}
 	}
 	return res, nil
+}
+
+// inOtherProblem is v as a candidate for another problem on the same
+// domain: the mesh must mesh that problem's domain and v must take its
+// boundary values (docs/math.md §9).
+func inOtherProblem(sol *Solution, other *problem.Problem) (*Solution, error) {
+	if other.Domain.Dim() != sol.Mesh.Dim {
+		return nil, fmt.Errorf("problem %s is %d-D, the field %d-D", other.Name, other.Domain.Dim(), sol.Mesh.Dim)
+	}
+	if err := coversDomain(other.Domain, sol.Mesh); err != nil {
+		return nil, fmt.Errorf("the field's mesh does not mesh the domain of problem %s: %v", other.Name, err)
+	}
+	if worst, at, tol := boundaryMismatch(other, sol.Mesh, sol.V); worst > tol {
+		pt := sol.Mesh.Nodes[at]
+		return nil, fmt.Errorf("the field differs from problem %s's u_D by %.3g at the boundary node (%g, %g); a guaranteed bound needs v = u_D on the boundary", other.Name, worst, pt.X, pt.Y)
+	}
+	return &Solution{Problem: other, Mesh: sol.Mesh, Space: sol.Space, V: sol.V, Tolerance: sol.Tolerance, MaxNewton: sol.MaxNewton}, nil
 }
 
 // boundSettings are the inputs of a bound (also used by adapt cells).

@@ -51,4 +51,14 @@ func TestExamplesBoundTheirErrors(t *testing.T) {
 			t.Errorf("flow intervals [%g, %g] and [%g, %g] overlap or are out of order", lo[i-1], hi[i-1], lo[i], hi[i])
 		}
 	}
+	// The Newtonian duct: the modelling error the note speaks of is there
+	// (the Newtonian field's guaranteed distance from the p = 1.7 solution
+	// is far above that problem's own discretisation error bound), and its
+	// interval is ordered.
+	ev = run("newtonian-duct.gapbook")
+	d, own := okCell(t, ev, "distance"), okCell(t, ev, "own")
+	dl, dh, oh := scalar(t, d, "minorant").Value, scalar(t, d, "majorant").Value, scalar(t, own, "majorant").Value
+	if !(0 < dl && dl <= dh) || !(dl > 10*oh) {
+		t.Errorf("Newtonian field in the p = 1.7 problem: error in [%g, %g]; the p = 1.7 solution's own bound %g", dl, dh, oh)
+	}
 }

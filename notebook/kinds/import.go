@@ -106,36 +106,20 @@ func (importKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.R
 		return nil, notebook.FieldErr("problem", "%s does not mesh the domain of problem %s: %v", name, p.Name, err)
 	}
 	// A guaranteed majorant needs v = u_D at the boundary nodes.
-	uD := p.DirichletAt(0)
-	if uD == nil {
-		uD = func(x, y float64) float64 { return 0 }
-	}
-	scale := 1.0
-	for _, x := range v {
-		scale = math.Max(scale, math.Abs(x))
-	}
-	tol := 1e-13 * scale
-	worst, at, changed := 0.0, -1, 0
-	for i, b := range m.Boundary {
-		if !b {
-			continue
+	worst, at, tol := boundaryMismatch(p, m, v)
+	changed := 0
+	if worst > tol {
+		if in.Text("boundary") == boundaryCheck {
+			pt := m.Nodes[at]
+			return nil, notebook.FieldErr("boundary", "the field differs from u_D by %.3g at the boundary node (%g, %g) (largest mismatch; rounding allows %.1g): a guaranteed bound needs v = u_D on the boundary; choose interpolate to replace the boundary values by u_D", worst, pt.X, pt.Y, tol)
 		}
-		want := uD(m.Nodes[i].X, m.Nodes[i].Y)
-		d := math.Abs(v[i] - want)
-		if d > worst {
-			worst, at = d, i
-		}
-		if d > tol {
-			if in.Text("boundary") == boundaryCheck {
-				continue
+		uD := dirichletOrZero(p)
+		for i, b := range m.Boundary {
+			if want := uD(m.Nodes[i].X, m.Nodes[i].Y); b && math.Abs(v[i]-want) > tol {
+				v[i] = want
+				changed++
 			}
-			v[i] = want
-			changed++
 		}
-	}
-	if worst > tol && in.Text("boundary") == boundaryCheck {
-		pt := m.Nodes[at]
-		return nil, notebook.FieldErr("boundary", "the field differs from u_D by %.3g at the boundary node (%g, %g) (largest mismatch; rounding allows %.1g): a guaranteed bound needs v = u_D on the boundary; choose interpolate to replace the boundary values by u_D", worst, pt.X, pt.Y, tol)
 	}
 	s, err := fem.NewP1(m)
 	if err != nil {
@@ -162,6 +146,34 @@ func (importKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.R
 		res.Fields = append(res.Fields, meshField(m, "v", "imported field v (P1)", v, false))
 	}
 	return res, nil
+}
+
+func dirichletOrZero(p *problem.Problem) func(x, y float64) float64 {
+	if uD := p.DirichletAt(0); uD != nil {
+		return uD
+	}
+	return func(x, y float64) float64 { return 0 }
+}
+
+// boundaryMismatch returns the largest |v − u_D| at the boundary nodes of
+// m, the node where it is, and what rounding allows (10⁻¹³ times the
+// largest |v|, at least 10⁻¹³).
+func boundaryMismatch(p *problem.Problem, m *mesh.Mesh, v []float64) (worst float64, at int, tol float64) {
+	uD := dirichletOrZero(p)
+	scale := 1.0
+	for _, x := range v {
+		scale = math.Max(scale, math.Abs(x))
+	}
+	at = -1
+	for i, b := range m.Boundary {
+		if !b {
+			continue
+		}
+		if d := math.Abs(v[i] - uD(m.Nodes[i].X, m.Nodes[i].Y)); d > worst {
+			worst, at = d, i
+		}
+	}
+	return worst, at, 1e-13 * scale
 }
 
 // importMesh builds the P1 mesh of the file's cells of the problem's

@@ -170,3 +170,29 @@ func TestImportErrors(t *testing.T) {
 		t.Errorf("interpolate changed %g boundary values, want the 14 boundary nodes of the 4 × 3 grid", n)
 	}
 }
+
+// Model comparison: the Newtonian (p = 2) solution bounded inside a
+// p-problem on the same domain. The bounds are guaranteed there: the
+// error of v in the p-problem, computed from that problem's exact
+// solution, lies inside the bound's interval.
+func TestBoundInAnotherProblem(t *testing.T) {
+	for _, p := range []float64{1.5, 3} {
+		ev := evalCells(t,
+			kc("newt", "problem", map[string]any{"domain": "rectangle", "p": 2, "f": "1"}),
+			kc("m", "mesh", map[string]any{"problem": "newt", "cells": 8}),
+			kc("s", "solve", map[string]any{"mesh": "m"}),
+			kc("pp", "problem", map[string]any{"domain": "rectangle", "p": p, "f": "", "exact": "x*(1-x)*y*(1-y)"}),
+			kc("b", "bound", map[string]any{"solution": "s", "problem": "pp"}),
+			kc("wrong", "problem", map[string]any{"domain": "L-shape", "p": p}),
+			kc("bw", "bound", map[string]any{"solution": "s", "problem": "wrong"}))
+		r := okCell(t, ev, "b")
+		maj, low, mu := scalar(t, r, "majorant").Value, scalar(t, r, "minorant").Value, scalar(t, r, "primal_error").Value
+		if !(low <= mu && mu <= maj) {
+			t.Errorf("p = %g: the Newtonian field's error %g in the p-problem is outside [%g, %g]", p, mu, low, maj)
+		}
+		t.Logf("p = %g: Newtonian field's error %.4e in [%.4e, %.4e]", p, mu, low, maj)
+		if o := ev.Cell("bw"); o.Status != notebook.StatusError || o.Err.Field != "problem" || !strings.Contains(o.Err.Msg, "does not mesh the domain") {
+			t.Errorf("a problem on another domain: %s %+v", o.Status, o.Err)
+		}
+	}
+}

@@ -167,7 +167,8 @@ export function inputForm(c, kind) {
         const cur = raw ?? inp.default ?? '';
         if (cur && !before.some((o) => o.id === cur)) field.append(el('option', { value: cur, text: `${cur} (not an earlier cell)` }));
         field.value = cur;
-        field.addEventListener('change', () => set(field.value));
+        // An optional reference left at (none) is left out of the file.
+        field.addEventListener('change', () => set(field.value === '' && inp.optional ? undefined : field.value));
         break;
       }
       case 'text':
