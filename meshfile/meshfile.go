@@ -21,13 +21,12 @@ const MaxSize = 64 << 20
 
 // Element types, by the number of nodes and the dimension.
 const (
-	Vertex   = "vertex"
-	Line2    = "line2" // 2-node line
-	Line3    = "line3" // 3-node line (ends, then the midpoint)
-	Tri3     = "tri3"  // 3-node triangle (P1)
-	Tri6     = "tri6"  // 6-node triangle (P2: vertices, then edge midpoints 01, 12, 20)
-	Quad4    = "quad4" // 4-node quadrilateral (Q1), nodes in turn round it
-	unknownT = "unknown"
+	Vertex = "vertex"
+	Line2  = "line2" // 2-node line
+	Line3  = "line3" // 3-node line (ends, then the midpoint)
+	Tri3   = "tri3"  // 3-node triangle (P1)
+	Tri6   = "tri6"  // 6-node triangle (P2: vertices, then edge midpoints 01, 12, 20)
+	Quad4  = "quad4" // 4-node quadrilateral (Q1), nodes in turn round it
 )
 
 // NodesOf is the number of nodes of each element type.
