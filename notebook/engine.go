@@ -158,6 +158,9 @@ type MemberKey struct {
 	Index int    `json:"-"`
 }
 
+// ID is the key as one string, for maps of members.
+func (k MemberKey) ID() string { return fmt.Sprintf("%s %s %d", k.Cell, k.Hash, k.Row) }
+
 // Member is what a sweep keeps of one member: the swept value, the scalars
 // of its chain of cells in order ("cell.scalar"), and the first error.
 type Member struct {

@@ -20,8 +20,6 @@ type pageStore struct {
 	n     int
 }
 
-func memberID(k notebook.MemberKey) string { return fmt.Sprintf("%s %s %d", k.Cell, k.Hash, k.Row) }
-
 func newPageStore(supply []notebook.Member, share []int, post func(*notebook.Member)) (*pageStore, error) {
 	if share != nil && (len(share) != 2 || share[1] < 1 || share[0] < 1 || share[0] > share[1]) {
 		return nil, fmt.Errorf("run: share %v is not K/N with 1 ≤ K ≤ N", share)
@@ -29,13 +27,13 @@ func newPageStore(supply []notebook.Member, share []int, post func(*notebook.Mem
 	s := &pageStore{have: map[string]*notebook.Member{}, share: share, post: post}
 	for i := range supply {
 		m := &supply[i]
-		s.have[memberID(m.MemberKey)] = m
+		s.have[m.ID()] = m
 	}
 	return s, nil
 }
 
 func (s *pageStore) Lookup(k notebook.MemberKey) (*notebook.Member, bool) {
-	m, ok := s.have[memberID(k)]
+	m, ok := s.have[k.ID()]
 	if !ok {
 		return nil, false
 	}

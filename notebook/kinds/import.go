@@ -66,8 +66,8 @@ func decodeData(s string) ([]byte, error) {
 	return raw, nil
 }
 
-// EncodeData is what the page stores of a file: gzip, then base64.
-func EncodeData(raw []byte) string {
+// encodeData is what the page stores of a file: gzip, then base64.
+func encodeData(raw []byte) string {
 	var b bytes.Buffer
 	w, _ := gzip.NewWriterLevel(&b, gzip.BestCompression)
 	w.Write(raw)
@@ -125,9 +125,7 @@ func (importKind) Evaluate(c *notebook.Context, in notebook.Values) (*notebook.R
 	if err != nil {
 		return nil, notebook.FieldErr("data", "%v", err)
 	}
-	solveIn := solveKind{}.Inputs()
-	sol := &Solution{Problem: p, Mesh: m, Space: s, V: v,
-		Tolerance: solveIn[1].Default.(float64), MaxNewton: solveIn[2].Default.(int)}
+	sol := &Solution{Problem: p, Mesh: m, Space: s, V: v, Tolerance: defaultTolerance, MaxNewton: defaultMaxNewton}
 	sum := sha256.Sum256(raw)
 	res := &notebook.Results{
 		Scalars: []notebook.Scalar{

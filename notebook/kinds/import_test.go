@@ -54,7 +54,7 @@ func TestImportOwnExportBitForBit(t *testing.T) {
 			kc("b", "bound", map[string]any{"solution": "s", "minorant": false}),
 		}
 		ev := evalCells(t, base...)
-		data := EncodeData(vtuOf(t, solutionOf(t, ev, "s"), nil))
+		data := encodeData(vtuOf(t, solutionOf(t, ev, "s"), nil))
 		ev2 := evalCells(t, append(base,
 			kc("i", "import", map[string]any{"problem": "p", "file": "u.vtu", "data": data}),
 			kc("bi", "bound", map[string]any{"solution": "i", "minorant": false}))...)
@@ -94,7 +94,7 @@ func TestImportedFieldGuarantee(t *testing.T) {
 		}
 		sol := solutionOf(t, evalCells(t, base...), "s")
 		for _, amp := range []float64{0.01, 0.1} {
-			data := EncodeData(vtuOf(t, sol, func(i int, v float64) float64 { return v + amp*math.Sin(7*float64(i))*math.Abs(v) }))
+			data := encodeData(vtuOf(t, sol, func(i int, v float64) float64 { return v + amp*math.Sin(7*float64(i))*math.Abs(v) }))
 			ev := evalCells(t, append(base,
 				kc("i", "import", map[string]any{"problem": "p", "data": data}),
 				kc("b", "bound", map[string]any{"solution": "i"}))...)
@@ -119,7 +119,7 @@ func TestImportMeshioFixture(t *testing.T) {
 		}
 		ev := evalCells(t,
 			kc("p", "problem", map[string]any{"domain": "rectangle", "x_max": 2, "p": 2, "u_D": "x^2 + 3*y + 1", "f": "-2"}),
-			kc("i", "import", map[string]any{"problem": "p", "file": name, "data": EncodeData(raw), "array": "u"}),
+			kc("i", "import", map[string]any{"problem": "p", "file": name, "data": encodeData(raw), "array": "u"}),
 			kc("b", "bound", map[string]any{"solution": "i"}))
 		r := okCell(t, ev, "i")
 		if n := scalar(t, r, "nodes").Value; n != 20 {
@@ -152,7 +152,7 @@ func TestImportErrors(t *testing.T) {
 		{"boundary mismatch", map[string]any{"domain": "rectangle", "x_max": 2, "p": 2}, map[string]any{"array": "u"}, "boundary", "interpolate"},
 		{"not base64", rect, map[string]any{"data": "%%%"}, "data", "not base64"},
 	} {
-		in := map[string]any{"problem": "p", "file": "tri.vtu", "data": EncodeData(raw)}
+		in := map[string]any{"problem": "p", "file": "tri.vtu", "data": encodeData(raw)}
 		for k, v := range c.in {
 			in[k] = v
 		}
@@ -165,7 +165,7 @@ func TestImportErrors(t *testing.T) {
 	// With interpolate, the mismatching boundary values are replaced and
 	// counted.
 	ev := evalCells(t, kc("p", "problem", map[string]any{"domain": "rectangle", "x_max": 2, "p": 2}),
-		kc("i", "import", map[string]any{"problem": "p", "data": EncodeData(raw), "array": "u", "boundary": "interpolate"}))
+		kc("i", "import", map[string]any{"problem": "p", "data": encodeData(raw), "array": "u", "boundary": "interpolate"}))
 	if n := scalar(t, okCell(t, ev, "i"), "boundary_changed").Value; n != 14 {
 		t.Errorf("interpolate changed %g boundary values, want the 14 boundary nodes of the 4 × 3 grid", n)
 	}

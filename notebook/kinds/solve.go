@@ -25,12 +25,19 @@ func (solveKind) Doc() string {
 func (solveKind) Inputs() []notebook.Input {
 	return []notebook.Input{
 		{Name: "mesh", Type: notebook.Ref, RefKinds: []string{"mesh"}, Doc: "id of the mesh cell to solve on"},
-		{Name: "tolerance", Type: notebook.Number, Default: 1e-10, Low: notebook.Above(0), High: notebook.Below(1),
+		{Name: "tolerance", Type: notebook.Number, Default: defaultTolerance, Low: notebook.Above(0), High: notebook.Below(1),
 			Doc: "Newton stops when the energy decrement falls below this fraction of the energy scale (any v is allowed in the bounds; a looser tolerance only weakens them)"},
-		{Name: "max_newton", Type: notebook.Integer, Default: 60, Low: notebook.AtLeast(1), High: notebook.AtMost(1000),
+		{Name: "max_newton", Type: notebook.Integer, Default: defaultMaxNewton, Low: notebook.AtLeast(1), High: notebook.AtMost(1000),
 			Doc: "largest number of Newton steps per mesh level and continuation stage"},
 	}
 }
+
+// The solve cell's default settings, also those of the refined solve behind
+// the minorant of an imported field.
+const (
+	defaultTolerance = 1e-10
+	defaultMaxNewton = 60
+)
 
 // Solution is the object a solve cell hands on (name "solution").
 type Solution struct {

@@ -100,10 +100,8 @@ type merged struct {
 	missing map[int][]string
 }
 
-func memberID(k notebook.MemberKey) string { return fmt.Sprintf("%s %s %d", k.Cell, k.Hash, k.Row) }
-
 func (m *merged) Lookup(k notebook.MemberKey) (*notebook.Member, bool) {
-	v, ok := m.have[memberID(k)]
+	v, ok := m.have[k.ID()]
 	return v, ok
 }
 
@@ -153,7 +151,7 @@ func Merge(ctx context.Context, path string, parts []string) ([]byte, *notebook.
 		seen[p.Share[0]] = f
 		for i := range p.Members {
 			m := &p.Members[i]
-			st.have[memberID(m.MemberKey)] = m
+			st.have[m.MemberKey.ID()] = m
 		}
 	}
 	if st.n == 0 {
